@@ -1,0 +1,211 @@
+// The contracts between the stages of the data's way:
+//
+//   sources ──Sample──▶ core (pure) ──CoreEvent──▶ historian / live hub / notifier
+//                         ▲ Command, Tick(now)
+//
+// Everything here is plain data. The core never reads the wall clock: every time
+// is an argument in epoch milliseconds (UTC), named *Ms.
+
+/** Data quality, after OPC UA's three severities. */
+export type Quality = "good" | "uncertain" | "bad";
+
+/** One value of one configured signal, already converted to its canonical unit. */
+export interface Sample {
+  /** Signal id from the config (not the plant tag). */
+  signal: string;
+  /** Value in the signal's canonical unit (see config/units.ts). NaN only with quality "bad". */
+  value: number;
+  quality: Quality;
+  /** Why the quality is not good (an OPC UA StatusCode name, "decode-error", ...). */
+  qualityReason?: string;
+  /** Time the value was measured (from the payload or the server); gradients use this. */
+  sourceTimeMs: number;
+  /** Time the edge box received it; staleness uses this. */
+  receiveTimeMs: number;
+  /** Analyser in function check (calibration, blowback, multiplexer switch): NAMUR NE 107 category C. */
+  functionCheck?: boolean;
+}
+
+export type Tier = "notice" | "caution" | "warning";
+export const TIERS: readonly Tier[] = ["notice", "caution", "warning"];
+export const tierRank = (t: Tier): number => TIERS.indexOf(t);
+
+/**
+ * Advisory states, after ISA-18.2 / IEC 62682 (the subset built so far):
+ * normal; active and unacknowledged; active and acknowledged;
+ * returned to normal while still unacknowledged.
+ */
+export type AdvisoryState = "normal" | "unack" | "ack" | "rtn-unack";
+
+/** Inerting state per unit, our own names. "unknown" whenever the data behind it cannot be trusted. */
+export type InertingState = "inert" | "marginal" | "not-inert" | "unknown";
+
+/** Commands from people, always with who, when and why. */
+export type Command = {
+  kind: "ack";
+  advisoryId: string;
+  by: string;
+  atMs: number;
+  note?: string;
+};
+
+/** An advisory as shown and stored. */
+export interface AdvisoryView {
+  /** Stable id: the rule id (one advisory per rule and instance). */
+  id: string;
+  ruleId: string;
+  state: AdvisoryState;
+  /** Tier while active; the last tier once returned to normal. */
+  tier: Tier;
+  unitId: string | null;
+  title: string;
+  /** Full text, always containing "advisory only". */
+  message: string;
+  /** Quantity the rule watches (a derived key, see DerivedKey) and its live value. */
+  quantity: string;
+  value: number | null;
+  unit: string;
+  /** The threshold of the current tier. */
+  limit: number;
+  direction: "high" | "low";
+  cause: string;
+  consequence: string;
+  check: string;
+  /** Where the threshold comes from: site hazard study, a named standard, or common practice. */
+  origin: string;
+  raisedAtMs: number;
+  lastChangeMs: number;
+  ackedBy: string | null;
+  ackedAtMs: number | null;
+}
+
+/** One advisory lifecycle transition; every one is stored and pushed. */
+export interface AdvisoryTransition {
+  kind: "advisory";
+  atMs: number;
+  advisoryId: string;
+  ruleId: string;
+  /** raise | escalate | de-escalate | ack | clear (return to normal) | normal (cleared and acknowledged) */
+  transition: "raise" | "escalate" | "de-escalate" | "ack" | "clear" | "normal";
+  from: AdvisoryState;
+  to: AdvisoryState;
+  tier: Tier;
+  value: number | null;
+  limit: number;
+  /** Who caused it: "millwarden" for rule evaluation, else the user. */
+  by: string;
+  why: string;
+}
+
+/** A derived value as stored in the historian, keyed like "dewpoint.bf1-outlet.marginK". */
+export interface DerivedValue {
+  kind: "derived";
+  key: string;
+  atMs: number;
+  /** null when it cannot be computed (status says why). */
+  value: number | null;
+  status: "ok" | "unknown";
+  reason?: string;
+}
+
+export type CoreEvent = DerivedValue | AdvisoryTransition;
+
+// ---- The view model: what GET /api/state returns and /api/live patches. ----
+
+export interface SignalView {
+  id: string;
+  name: string;
+  /** Canonical unit symbol, e.g. "°C", "Pa", "% vol", "ppm". */
+  unit: string;
+  value: number | null;
+  quality: Quality | null;
+  qualityReason: string | null;
+  sourceTimeMs: number | null;
+  receiveTimeMs: number | null;
+  /** Expected update period from the config; stale when no update within 3 periods. */
+  expectedPeriodS: number;
+  stale: boolean;
+  functionCheck: boolean;
+}
+
+export interface InertingView {
+  unitId: string;
+  state: InertingState;
+  o2Signal: string;
+  /** O2 on the limit's basis. */
+  o2PctVol: number | null;
+  basis: "wet" | "dry";
+  /** The effective limit (lowest of site maximum and LOC with NFPA 69 margin), on `basis`. */
+  limitPctVol: number;
+  /** Which of the two set the limit, with its recorded origin. */
+  limitSource: string;
+  /** limit − O2 in percentage points; positive is on the safe side. */
+  marginPctPt: number | null;
+  /** Below this margin the unit is "marginal". */
+  marginalBandPctPt: number;
+  reason: string;
+}
+
+export interface DewPointView {
+  id: string;
+  name: string;
+  unitId: string;
+  gasTempC: number | null;
+  h2oPctVol: number | null;
+  absPressurePa: number | null;
+  dewPointC: number | null;
+  marginK: number | null;
+  status: "ok" | "unknown";
+  reason: string;
+}
+
+export interface CoPointView {
+  id: string;
+  name: string;
+  unitId: string;
+  signal: string;
+  coPpm: number | null;
+  gradientPpmPerMin: number | null;
+  windowS: number;
+  status: "ok" | "unknown";
+  reason: string;
+}
+
+export interface UnitView {
+  id: string;
+  name: string;
+  kind: string;
+  inerting: InertingView | null;
+}
+
+export interface PlantState {
+  advisoryOnly: string;
+  site: { name: string; plant: string };
+  nowMs: number;
+  signals: SignalView[];
+  units: UnitView[];
+  dewPoints: DewPointView[];
+  coPoints: CoPointView[];
+  /** Active advisories and those returned to normal but not yet acknowledged. */
+  advisories: AdvisoryView[];
+}
+
+/** Messages on the WebSocket /api/live. Entries in a delta replace those with the same id. */
+export type LiveMessage =
+  | { type: "snapshot"; state: PlantState }
+  | {
+      type: "delta";
+      nowMs: number;
+      signals?: SignalView[];
+      units?: UnitView[];
+      dewPoints?: DewPointView[];
+      coPoints?: CoPointView[];
+      /** When present, the complete list of current advisories (it is short). */
+      advisories?: AdvisoryView[];
+      transitions?: AdvisoryTransition[];
+    };
+
+/** The words every screen and message carries. */
+export const ADVISORY_ONLY =
+  "ADVISORY ONLY: millwarden is not a safety system. The plant's certified protection system governs; " +
+  "thresholds must come from the site's own hazard study.";

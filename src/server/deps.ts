@@ -1,0 +1,44 @@
+// What the HTTP server needs from the daemon. The server holds no plant state of its
+// own: it reads through these functions, so tests can hand it a small in-memory
+// implementation and the daemon hands it the live one.
+import type { AdvisoryTransition, AdvisoryView, LiveMessage, PlantState, Quality } from "../core/types.js";
+
+export interface TrendPoint {
+  tMs: number;
+  value: number | null;
+  quality: Quality | "ok" | "unknown";
+}
+
+export interface HealthView {
+  status: "ok" | "degraded";
+  advisoryOnly: string;
+  startedAtMs: number;
+  nowMs: number;
+  sources: { id: string; kind: string; connected: boolean; samples: number; rejected: number; lastError: string | null }[];
+  historian: { state: "ok" | "degraded"; queueDepth: number; rowsWritten: number; lastError: string | null };
+}
+
+export type AckResult =
+  | { ok: true; advisory: AdvisoryView }
+  | { ok: false; status: 404 | 409; error: string };
+
+export interface AppDeps {
+  getState(): PlantState;
+  health(): HealthView;
+  /** Current advisories, and the latest transitions from the historian (newest first). */
+  advisories(opts: { limit: number }): { active: AdvisoryView[]; history: AdvisoryTransition[] };
+  acknowledge(advisoryId: string, by: string, note?: string): AckResult;
+  /** Raw signal ids and derived keys both; throws UnknownSeriesError for anything else. */
+  trend(series: string, fromMs: number, toMs: number): TrendPoint[];
+  /** Register for live messages; returns the unsubscribe function. */
+  subscribe(listener: (msg: LiveMessage) => void): () => void;
+  /** Folder with the browser side (index.html and its assets). */
+  dashboardDir: string;
+}
+
+export class UnknownSeriesError extends Error {
+  constructor(public readonly series: string) {
+    super(`unknown series "${series}": expected a signal id or a derived key listed in GET /api/state`);
+    this.name = "UnknownSeriesError";
+  }
+}
