@@ -85,8 +85,8 @@ export interface AdvisoryTransition {
   atMs: number;
   advisoryId: string;
   ruleId: string;
-  /** raise | escalate | de-escalate | ack | clear (return to normal) | normal (cleared and acknowledged) */
-  transition: "raise" | "escalate" | "de-escalate" | "ack" | "clear" | "normal";
+  /** raise (or re-raise) | escalate to a higher tier | de-escalate | ack | clear (condition returned to normal) */
+  transition: "raise" | "escalate" | "de-escalate" | "ack" | "clear";
   from: AdvisoryState;
   to: AdvisoryState;
   tier: Tier;

@@ -1,0 +1,196 @@
+#!/usr/bin/env node
+// millwarden command line: parses arguments and calls the parts; no logic of its own.
+import { parseArgs } from "node:util";
+import { resolve } from "node:path";
+import { fileURLToPath } from "node:url";
+import { ConfigError, loadConfig } from "../config/load.js";
+import type { MillwardenConfig } from "../config/schema.js";
+import { Daemon } from "../daemon/daemon.js";
+import { startEmbeddedBroker } from "../daemon/embedded-broker.js";
+import { makeLogger } from "../daemon/log.js";
+import { ADVISORY_ONLY } from "../core/types.js";
+import { runSimulator } from "../sim/publish.js";
+import { scenarioNames } from "../sim/plant.js";
+import { summarizeConfig } from "./summary.js";
+
+const ROOT = resolve(fileURLToPath(import.meta.url), "../../..");
+export const DEMO_CONFIG = resolve(ROOT, "config/demo.yaml");
+const DEMO_BROKER_PORT = 18830;
+
+const USAGE = `millwarden: advisory-only monitoring for coal grinding plants
+
+usage:
+  millwarden run --config FILE [--log json|text]
+  millwarden demo [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
+  millwarden check --config FILE
+  millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
+
+${ADVISORY_ONLY}`;
+
+class UsageError extends Error {}
+
+function num(v: string | undefined, name: string, dflt: number): number {
+  if (v === undefined) return dflt;
+  const n = Number(v);
+  if (!Number.isFinite(n) || n < 0) throw new UsageError(`--${name} expects a non-negative number; found "${v}"`);
+  return n;
+}
+
+function waitForSignal(): Promise<string> {
+  return new Promise((ok) => {
+    const on = (sig: string) => ok(sig);
+    process.once("SIGINT", () => on("SIGINT"));
+    process.once("SIGTERM", () => on("SIGTERM"));
+  });
+}
+
+function requireConfig(path: string | undefined): MillwardenConfig {
+  if (!path) throw new UsageError("--config FILE is required");
+  return loadConfig(path);
+}
+
+async function cmdRun(args: string[]): Promise<number> {
+  const { values } = parseArgs({ args, options: { config: { type: "string" }, log: { type: "string", default: "json" } } });
+  const cfg = requireConfig(values.config);
+  const log = makeLogger(values.log === "text" ? "text" : "json");
+  const daemon = await Daemon.start({ config: cfg, log });
+  const sig = await waitForSignal();
+  log.info(`${sig}: stopping`);
+  await daemon.stop();
+  return 0;
+}
+
+async function cmdDemo(args: string[]): Promise<number> {
+  const { values } = parseArgs({
+    args,
+    options: {
+      speed: { type: "string" },
+      scenario: { type: "string", default: "demo" },
+      port: { type: "string" },
+      "broker-port": { type: "string" },
+      data: { type: "string", default: "data/demo" },
+    },
+  });
+  const speed = num(values.speed, "speed", 1);
+  if (speed === 0) throw new UsageError("--speed must be above 0 for the demo");
+  const log = makeLogger("text");
+  const base = loadConfig(DEMO_CONFIG);
+  const broker = await startEmbeddedBroker(num(values["broker-port"], "broker-port", DEMO_BROKER_PORT));
+  const cfg: MillwardenConfig = {
+    ...base,
+    // Faster than real time, the box's clock no longer matches the data: follow the data's own time.
+    clock: speed === 1 ? "wall" : "data",
+    storage: { ...base.storage, path: resolve(values.data, "millwarden.db") },
+    server: { ...base.server, port: num(values.port, "port", base.server.port) },
+    sources: base.sources.map((s) => ({ ...s, url: broker.url })),
+  };
+  const daemon = await Daemon.start({ config: cfg, log });
+  const abort = new AbortController();
+  const sim = runSimulator({
+    scenario: values.scenario,
+    mqttUrl: broker.url,
+    topicPrefix: "tarnholm/cg2",
+    speed,
+    startTimeMs: Date.now(),
+    loop: true,
+    signal: abort.signal,
+    log: (m) => log.info(`simulator: ${m}`),
+  }).catch((e: Error) => log.error(`simulator stopped: ${e.message}`));
+  process.stdout.write(
+    `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
+      `  embedded MQTT broker  ${broker.url}\n  database              ${cfg.storage.path}\n  dashboard             ${daemon.url}\n` +
+      `\n${ADVISORY_ONLY}\nPress Ctrl-C to stop.\n\n`,
+  );
+  await waitForSignal();
+  log.info("stopping the demo");
+  abort.abort();
+  await sim;
+  await daemon.stop();
+  await broker.close();
+  return 0;
+}
+
+function cmdCheck(args: string[]): number {
+  const { values } = parseArgs({ args, options: { config: { type: "string" } } });
+  const cfg = requireConfig(values.config);
+  process.stdout.write(summarizeConfig(cfg, values.config!) + "\n");
+  return 0;
+}
+
+async function cmdSimulate(args: string[]): Promise<number> {
+  const { values } = parseArgs({
+    args,
+    options: {
+      scenario: { type: "string" },
+      mqtt: { type: "string" },
+      speed: { type: "string" },
+      prefix: { type: "string", default: "tarnholm/cg2" },
+      loop: { type: "boolean", default: false },
+      seed: { type: "string" },
+    },
+  });
+  if (!values.scenario) throw new UsageError(`--scenario is required: one of ${scenarioNames().join(", ")}`);
+  if (!values.mqtt) throw new UsageError("--mqtt URL is required, e.g. mqtt://127.0.0.1:1883");
+  const abort = new AbortController();
+  process.once("SIGINT", () => abort.abort());
+  process.once("SIGTERM", () => abort.abort());
+  const r = await runSimulator({
+    scenario: values.scenario,
+    mqttUrl: values.mqtt,
+    topicPrefix: values.prefix,
+    speed: num(values.speed, "speed", 1),
+    seed: values.seed === undefined ? undefined : num(values.seed, "seed", 1),
+    startTimeMs: Date.now(),
+    loop: values.loop,
+    signal: abort.signal,
+    log: (m) => process.stderr.write(m + "\n"),
+  });
+  process.stderr.write(`published ${r.messages} messages in ${r.frames} frames\n`);
+  return 0;
+}
+
+export async function main(argv: string[]): Promise<number> {
+  const [cmd, ...rest] = argv;
+  try {
+    switch (cmd) {
+      case "run":
+        return await cmdRun(rest);
+      case "demo":
+        return await cmdDemo(rest);
+      case "check":
+        return cmdCheck(rest);
+      case "simulate":
+        return await cmdSimulate(rest);
+      case undefined:
+      case "help":
+      case "--help":
+      case "-h":
+        process.stdout.write(USAGE + "\n");
+        return cmd === undefined ? 2 : 0;
+      default:
+        throw new UsageError(`unknown command "${cmd}"`);
+    }
+  } catch (e) {
+    if (e instanceof ConfigError) {
+      process.stderr.write(`config errors:\n${e.message}\n`);
+      return 1;
+    }
+    if (e instanceof UsageError || (e as NodeJS.ErrnoException).code === "ERR_PARSE_ARGS_UNKNOWN_OPTION") {
+      process.stderr.write(`${(e as Error).message}\n\n${USAGE}\n`);
+      return 2;
+    }
+    process.stderr.write(`millwarden: ${(e as Error).message}\n`);
+    return 1;
+  }
+}
+
+const invoked = process.argv[1] && resolve(process.argv[1]);
+if (invoked === fileURLToPath(import.meta.url) || invoked?.endsWith("/bin/millwarden.js") || invoked?.endsWith("/bin/millwarden")) {
+  main(process.argv.slice(2)).then(
+    (code) => process.exit(code),
+    (e: Error) => {
+      process.stderr.write(`millwarden: ${e.stack ?? e.message}\n`);
+      process.exit(1);
+    },
+  );
+}

@@ -1,0 +1,187 @@
+// Loads a YAML config, checks its shape and its cross-references, and reports every
+// problem with file:line:column, the key, what was expected and what was found.
+import { readFileSync } from "node:fs";
+import { LineCounter, parseDocument, isNode, type Document } from "yaml";
+import { configSchema, type MillwardenConfig } from "./schema.js";
+import { unitDef } from "./units.js";
+import { derivedQuantities } from "../core/quantities.js";
+
+export interface ConfigProblem {
+  file: string;
+  line: number;
+  column: number;
+  /** Dotted key path, e.g. signals[3].unit */
+  key: string;
+  message: string;
+}
+
+export class ConfigError extends Error {
+  constructor(public readonly problems: ConfigProblem[]) {
+    super(problems.map(formatProblem).join("\n"));
+    this.name = "ConfigError";
+  }
+}
+
+export function formatProblem(p: ConfigProblem): string {
+  return `${p.file}:${p.line}:${p.column}: ${p.key || "(top level)"}: ${p.message}`;
+}
+
+type Path = (string | number)[];
+
+const keyOf = (path: Path) =>
+  path.reduce<string>((acc, p) => (typeof p === "number" ? `${acc}[${p}]` : acc ? `${acc}.${p}` : p), "");
+
+function describe(v: unknown): string {
+  if (v === undefined) return "nothing";
+  if (v === null) return "null";
+  if (Array.isArray(v)) return `a list of ${v.length}`;
+  if (typeof v === "object") return "a mapping";
+  return `${typeof v} ${JSON.stringify(v)}`;
+}
+
+class Locator {
+  constructor(
+    private readonly doc: Document,
+    private readonly lines: LineCounter,
+    private readonly file: string,
+  ) {}
+
+  /** Where the value at `path` stands, or its nearest existing parent. */
+  at(path: Path, message: string): ConfigProblem {
+    for (let n = path.length; n >= 0; n--) {
+      const node = this.doc.getIn(path.slice(0, n), true);
+      if (isNode(node) && node.range) {
+        const pos = this.lines.linePos(node.range[0]);
+        return { file: this.file, line: pos.line, column: pos.col, key: keyOf(path), message };
+      }
+    }
+    return { file: this.file, line: 1, column: 1, key: keyOf(path), message };
+  }
+
+  found(path: Path): unknown {
+    const v = this.doc.getIn(path);
+    return isNode(v) ? v.toJSON() : v;
+  }
+}
+
+/** Parse config text; `file` names it in messages. Throws ConfigError. */
+export function parseConfig(textContent: string, file: string): MillwardenConfig {
+  const lines = new LineCounter();
+  const doc = parseDocument(textContent, { lineCounter: lines, prettyErrors: false, uniqueKeys: true });
+  const problems: ConfigProblem[] = [];
+  for (const e of [...doc.errors]) {
+    const pos = lines.linePos(e.pos[0]);
+    problems.push({ file, line: pos.line, column: pos.col, key: "", message: `YAML syntax: ${e.message.split("\n")[0]}` });
+  }
+  if (problems.length) throw new ConfigError(problems);
+  const loc = new Locator(doc, lines, file);
+
+  const parsed = configSchema.safeParse(doc.toJS());
+  if (!parsed.success) {
+    for (const issue of parsed.error.issues) {
+      const path = issue.path.filter((p): p is string | number => typeof p !== "symbol");
+      let msg = issue.message;
+      if (issue.code === "unrecognized_keys") {
+        msg = `unknown key${issue.keys.length > 1 ? "s" : ""} ${issue.keys.map((k) => `"${k}"`).join(", ")} (check the spelling against config/demo.yaml)`;
+        problems.push(loc.at([...path, issue.keys[0]!], msg));
+        continue;
+      }
+      if (issue.code !== "custom") msg = `${msg}; found ${describe(loc.found(path))}`;
+      problems.push(loc.at(path, msg));
+    }
+    throw new ConfigError(problems);
+  }
+  const cfg = parsed.data;
+  crossCheck(cfg, loc, problems);
+  if (problems.length) throw new ConfigError(problems);
+  return cfg;
+}
+
+export function loadConfig(path: string): MillwardenConfig {
+  let content: string;
+  try {
+    content = readFileSync(path, "utf8");
+  } catch (e) {
+    throw new ConfigError([{ file: path, line: 1, column: 1, key: "", message: `cannot read the file: ${(e as Error).message}` }]);
+  }
+  return parseConfig(content, path);
+}
+
+function duplicates<T extends { id: string }>(list: T[], section: string, loc: Locator, out: ConfigProblem[]) {
+  const seen = new Map<string, number>();
+  list.forEach((item, i) => {
+    const first = seen.get(item.id);
+    if (first !== undefined) out.push(loc.at([section, i, "id"], `duplicate id "${item.id}" (first used at ${section}[${first}])`));
+    else seen.set(item.id, i);
+  });
+  return seen;
+}
+
+function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
+  const sources = duplicates(cfg.sources, "sources", loc, out);
+  const signals = duplicates(cfg.signals, "signals", loc, out);
+  const units = duplicates(cfg.units, "units", loc, out);
+  duplicates(cfg.dewPoints, "dewPoints", loc, out);
+  duplicates(cfg.coPoints, "coPoints", loc, out);
+  duplicates(cfg.rules, "rules", loc, out);
+  const signalById = new Map(cfg.signals.map((s) => [s.id, s]));
+
+  const needSignal = (path: Path, sid: string, quantity?: string, what?: string) => {
+    if (!signals.has(sid)) {
+      out.push(loc.at(path, `unknown signal "${sid}": expected one of the ids under signals (${[...signals.keys()].slice(0, 8).join(", ")}${signals.size > 8 ? ", ..." : ""})`));
+      return;
+    }
+    const s = signalById.get(sid)!;
+    if (quantity && unitDef(s.unit).quantity !== quantity) {
+      out.push(loc.at(path, `signal "${sid}" is in ${s.unit}, expected ${what}`));
+    }
+  };
+  const needUnit = (path: Path, uid: string) => {
+    if (!units.has(uid)) out.push(loc.at(path, `unknown unit "${uid}": expected one of ${[...units.keys()].join(", ")}`));
+  };
+
+  cfg.signals.forEach((s, i) => {
+    if (!sources.has(s.source)) out.push(loc.at(["signals", i, "source"], `unknown source "${s.source}": expected one of ${[...sources.keys()].join(", ")}`));
+    if (!s.topic) out.push(loc.at(["signals", i], `signal "${s.id}" from an MQTT source needs a topic`));
+    if (s.range && !(s.range[0] < s.range[1])) out.push(loc.at(["signals", i, "range"], `expected [low, high] with low < high; found [${s.range.join(", ")}]`));
+  });
+  if (cfg.site.barometricSignal) needSignal(["site", "barometricSignal"], cfg.site.barometricSignal, "pressure", "a pressure unit (Pa, hPa, mbar, kPa, bar)");
+
+  cfg.units.forEach((u, i) => {
+    const o = u.oxygen;
+    if (!o) return;
+    needSignal(["units", i, "oxygen", "signal"], o.signal, "concentration-pct", "% vol (pctVol)");
+    const o2 = signalById.get(o.signal);
+    if (o2 && !o2.basis) out.push(loc.at(["units", i, "oxygen", "signal"], `O2 signal "${o.signal}" must declare its basis (wet or dry) under signals`));
+    if (!o.siteMaximum && !o.loc) out.push(loc.at(["units", i, "oxygen"], "expected a siteMaximum, a loc, or both: a unit's O2 needs a limit"));
+    if (o.h2oSignal) needSignal(["units", i, "oxygen", "h2oSignal"], o.h2oSignal, "concentration-pct", "% vol (pctVol)");
+    const bases = [o.siteMaximum?.basis, o.loc?.basis].filter(Boolean);
+    if (o2?.basis && bases.some((b) => b !== o2.basis) && !o.h2oSignal) {
+      out.push(loc.at(["units", i, "oxygen"], `the O2 signal reads ${o2.basis} but a limit is on another basis: expected h2oSignal for the wet/dry conversion`));
+    }
+  });
+  cfg.dewPoints.forEach((d, i) => {
+    needUnit(["dewPoints", i, "unit"], d.unit);
+    needSignal(["dewPoints", i, "gasTemperature"], d.gasTemperature, "temperature", "a temperature unit (degC, K, degF)");
+    needSignal(["dewPoints", i, "h2o"], d.h2o, "concentration-pct", "% vol (pctVol)");
+    if (d.gaugePressure) needSignal(["dewPoints", i, "gaugePressure"], d.gaugePressure, "pressure", "a pressure unit");
+  });
+  cfg.coPoints.forEach((c, i) => {
+    needUnit(["coPoints", i, "unit"], c.unit);
+    needSignal(["coPoints", i, "signal"], c.signal, "concentration-ppm", "ppm");
+    if (c.windowS <= c.transportLagS) out.push(loc.at(["coPoints", i, "windowS"], `expected a window longer than the transport lag (${c.transportLagS} s); found ${c.windowS} s`));
+  });
+
+  const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
+  cfg.rules.forEach((r, i) => {
+    if (r.unit) needUnit(["rules", i, "unit"], r.unit);
+    if (!quantities.has(r.quantity)) {
+      const near = [...quantities].filter((q) => q.split(".")[1] === r.quantity.split(".")[1] || q.startsWith(r.quantity.split(".")[0] ?? "")).slice(0, 6);
+      out.push(loc.at(["rules", i, "quantity"], `unknown quantity "${r.quantity}": expected a signal id or a derived key${near.length ? ` such as ${near.join(", ")}` : ""}`));
+    }
+    const t = r.tiers;
+    const ordered = [t.notice, t.caution, t.warning].filter((x): x is number => x !== undefined);
+    const ok = ordered.every((v, k) => k === 0 || (r.direction === "high" ? v > ordered[k - 1]! : v < ordered[k - 1]!));
+    if (!ok) out.push(loc.at(["rules", i, "tiers"], `expected thresholds ${r.direction === "high" ? "rising" : "falling"} from notice to warning; found ${JSON.stringify(t)}`));
+  });
+}

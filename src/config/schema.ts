@@ -1,0 +1,160 @@
+// The shape of a millwarden config file. Every key is documented in
+// config/demo.yaml; this schema is what the loader checks it against.
+// Cross-references (a rule naming a quantity, a unit naming a signal) are checked
+// in load.ts after the shape is known to be right.
+import { z } from "zod";
+import { UNIT_NAMES } from "./units.js";
+
+const id = z
+  .string()
+  .regex(/^[a-z0-9][a-z0-9_-]*(\.[a-z0-9_-]+)*$/, "expected a lowercase id of letters, digits, - and _, dot-separated");
+const text = z.string().min(1);
+const positive = z.number().positive();
+
+const mqttSource = z.strictObject({
+  id,
+  kind: z.literal("mqtt"),
+  url: z.string().regex(/^(mqtt|mqtts|ws|wss):\/\//, "expected an mqtt://, mqtts://, ws:// or wss:// URL"),
+  protocolVersion: z.union([z.literal(4), z.literal(5)]).default(4),
+  clientId: z.string().min(1).optional(),
+  username: z.string().optional(),
+  /** Read from this environment variable, never written in the file. */
+  passwordEnv: z.string().optional(),
+  qos: z.union([z.literal(0), z.literal(1)]).default(0),
+  /** How each message body is read. */
+  payload: z
+    .strictObject({
+      format: z.enum(["json", "number"]).default("json"),
+      valuePath: z.string().min(1).default("value"),
+      timePath: z.string().min(1).optional(),
+      qualityPath: z.string().min(1).optional(),
+    })
+    .default({ format: "json", valuePath: "value" }),
+  /** A payload time further ahead of the box's clock than this is rejected. */
+  maxClockSkewS: positive.default(30),
+});
+
+const signal = z.strictObject({
+  id,
+  name: text,
+  /** The plant's own tag name (ISA-5.1 letters with site prefix); mapped, never parsed. */
+  tag: text,
+  source: id,
+  topic: z.string().min(1).optional(),
+  /** JSON path of the value inside the payload; overrides the source's default. */
+  valuePath: z.string().min(1).optional(),
+  unit: z.enum(UNIT_NAMES as [string, ...string[]]),
+  scale: z.number().default(1),
+  offset: z.number().default(0),
+  /** Plausible range in canonical units; values outside are marked bad. */
+  range: z.tuple([z.number(), z.number()]).optional(),
+  expectedPeriodS: positive,
+  /** For O2 signals: what the analyser reads (in-situ probes read wet, extractive with a cooler dry). */
+  basis: z.enum(["wet", "dry"]).optional(),
+  analyser: z.string().min(1).optional(),
+});
+
+const limitOrigin = z.string().min(3);
+const oxygen = z.strictObject({
+  signal: id,
+  /** H2O signal (vol % wet) used to convert between wet and dry basis when the O2 and limit bases differ. */
+  h2oSignal: id.optional(),
+  siteMaximum: z
+    .strictObject({ pctVol: z.number().gt(0).lt(21), basis: z.enum(["wet", "dry"]), origin: limitOrigin })
+    .optional(),
+  loc: z
+    .strictObject({
+      pctVol: z.number().gt(0).lt(21),
+      basis: z.enum(["wet", "dry"]).default("dry"),
+      monitoring: z.enum(["continuous", "periodic"]),
+      origin: limitOrigin,
+    })
+    .optional(),
+  marginalBandPctPt: positive.default(1.5),
+});
+
+const unit = z.strictObject({
+  id,
+  name: text,
+  kind: z.enum(["hot-gas-generator", "mill", "classifier", "bag-filter", "dust-hopper", "silo", "duct"]),
+  oxygen: oxygen.optional(),
+});
+
+const dewPoint = z.strictObject({
+  id,
+  name: text,
+  unit: id,
+  gasTemperature: id,
+  h2o: id,
+  /** Gauge pressure signal at the location; omitted means atmospheric. */
+  gaugePressure: id.optional(),
+});
+
+const coPoint = z.strictObject({
+  id,
+  name: text,
+  unit: id,
+  signal: id,
+  windowS: positive,
+  /** Analyser transport lag; the window must be longer than it. */
+  transportLagS: z.number().nonnegative(),
+  minPoints: z.number().int().min(3).default(10),
+  /** A gap longer than this restarts the window: no gradient across a gap. */
+  maxGapS: positive.default(30),
+});
+
+const tierThresholds = z
+  .strictObject({ notice: z.number().optional(), caution: z.number().optional(), warning: z.number().optional() })
+  .refine((t) => t.notice !== undefined || t.caution !== undefined || t.warning !== undefined, {
+    message: "expected at least one of notice, caution, warning",
+  });
+
+const rule = z.strictObject({
+  id,
+  title: text,
+  unit: id.optional(),
+  /** A signal id or a derived key (see DEVELOPERS.md, "Derived keys"). */
+  quantity: z.string().min(1),
+  direction: z.enum(["high", "low"]),
+  tiers: tierThresholds,
+  deadband: z.number().nonnegative().default(0),
+  onDelayS: z.number().nonnegative().default(0),
+  cause: text,
+  consequence: text,
+  check: text,
+  /** Where the thresholds come from: site hazard study, a named standard, or common practice. */
+  origin: text,
+});
+
+export const configSchema = z.strictObject({
+  site: z.strictObject({
+    name: text,
+    plant: text,
+    /** Barometric pressure at the site, used where no measured value is configured. */
+    barometricPressureHPa: z.number().min(500).max(1100),
+    /** Optional measured barometric pressure signal (takes precedence while trustworthy). */
+    barometricSignal: id.optional(),
+  }),
+  /** wall: ticks from the box's clock (live); data: ticks from the samples' own time (replay, accelerated simulation). */
+  clock: z.enum(["wall", "data"]).default("wall"),
+  storage: z
+    .strictObject({ path: z.string().min(1).default("data/millwarden.db"), synchronous: z.enum(["NORMAL", "FULL"]).default("NORMAL") })
+    .default({ path: "data/millwarden.db", synchronous: "NORMAL" }),
+  server: z
+    .strictObject({ host: z.string().min(1).default("127.0.0.1"), port: z.number().int().min(0).max(65535).default(8480) })
+    .default({ host: "127.0.0.1", port: 8480 }),
+  sources: z.array(mqttSource).min(1),
+  signals: z.array(signal).min(1),
+  units: z.array(unit).min(1),
+  dewPoints: z.array(dewPoint).default([]),
+  coPoints: z.array(coPoint).default([]),
+  rules: z.array(rule).default([]),
+});
+
+export type MillwardenConfig = z.infer<typeof configSchema>;
+export type SignalConfig = MillwardenConfig["signals"][number];
+export type SourceConfig = MillwardenConfig["sources"][number];
+export type UnitConfig = MillwardenConfig["units"][number];
+export type DewPointConfig = MillwardenConfig["dewPoints"][number];
+export type CoPointConfig = MillwardenConfig["coPoints"][number];
+export type RuleConfig = MillwardenConfig["rules"][number];

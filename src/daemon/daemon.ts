@@ -1,0 +1,183 @@
+// The daemon: the edges around the pure core.
+//
+//   sources (MQTT) ─Sample─▶ clock ─Tick─▶ Engine ─events─▶ historian (SQLite, batched)
+//                                            ▲            └▶ live hub ─▶ WebSocket clients
+//                                 Command ───┘ (HTTP API)
+//
+// With `clock: wall` the core is ticked once a second from the box's clock; with
+// `clock: data` it is ticked at each whole second of the samples' own time, which is
+// what replay and accelerated simulation need. Either way the core sees time only as
+// an argument.
+import { fileURLToPath } from "node:url";
+import { dirname, resolve } from "node:path";
+import type { MillwardenConfig } from "../config/schema.js";
+import { DataClock, Engine } from "../core/engine.js";
+import type { AdvisoryTransition, CoreEvent, Sample } from "../core/types.js";
+import { ADVISORY_ONLY } from "../core/types.js";
+import { Historian } from "../store/historian.js";
+import { MqttSource, type Source } from "../sources/mqtt.js";
+import { LiveHub } from "./live-hub.js";
+import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
+import { startServer } from "../server/listen.js";
+import type { Logger } from "./log.js";
+
+export const DASHBOARD_DIR = resolve(dirname(fileURLToPath(import.meta.url)), "../../dashboard");
+
+export interface DaemonOptions {
+  config: MillwardenConfig;
+  log: Logger;
+  /** Wall clock; injectable for tests. */
+  now?: () => number;
+  /** Start the HTTP server (default true). */
+  serve?: boolean;
+  /** Base folder for a relative storage path (default: the working folder). */
+  baseDir?: string;
+}
+
+export class Daemon {
+  readonly engine: Engine;
+  readonly historian: Historian;
+  readonly hub: LiveHub;
+  readonly sources: Source[];
+  url: string | null = null;
+  private server: { close(): Promise<void> } | null = null;
+  private timer: NodeJS.Timeout | null = null;
+  private readonly dataClock: DataClock | null;
+  private readonly now: () => number;
+  private readonly startedAtMs: number;
+  private lastTickMs = 0;
+  private readonly rejectedByCore: Record<string, number> = {};
+
+  private constructor(private readonly opts: DaemonOptions) {
+    const cfg = opts.config;
+    this.now = opts.now ?? Date.now;
+    this.startedAtMs = this.now();
+    this.engine = new Engine(cfg);
+    this.historian = Historian.open({ path: resolve(opts.baseDir ?? process.cwd(), cfg.storage.path), synchronous: cfg.storage.synchronous });
+    this.hub = new LiveHub(() => this.engine.snapshot());
+    this.dataClock = cfg.clock === "data" ? new DataClock() : null;
+    this.sources = cfg.sources.map((s) => {
+      // On the data clock the box's own clock says nothing about the data's time.
+      const src = this.dataClock ? { ...s, maxClockSkewS: Number.POSITIVE_INFINITY } : s;
+      return new MqttSource(src, cfg.signals, { now: this.now, log: (level, msg) => opts.log[level](msg) });
+    });
+  }
+
+  static async start(opts: DaemonOptions): Promise<Daemon> {
+    const d = new Daemon(opts);
+    await d.begin();
+    return d;
+  }
+
+  private async begin(): Promise<void> {
+    const { config: cfg, log } = this.opts;
+    this.historian.start();
+    this.hub.start();
+    if (!this.dataClock) {
+      this.tick(this.now());
+      this.timer = setInterval(() => this.tick(this.now()), 1000);
+    }
+    for (const s of this.sources) await s.start((sample) => this.ingest(sample));
+    if (this.opts.serve !== false) {
+      const srv = await startServer(this.appDeps(), { host: cfg.server.host, port: cfg.server.port });
+      this.server = srv;
+      this.url = srv.url;
+      log.info(`dashboard at ${srv.url}`);
+    }
+    log.info(`monitoring ${cfg.site.name}, ${cfg.site.plant}: ${cfg.signals.length} signals, ${cfg.rules.length} rules, clock ${cfg.clock}. ${ADVISORY_ONLY}`);
+  }
+
+  /** Data time of the last tick (the core's "now"). */
+  get coreNowMs(): number {
+    return this.lastTickMs;
+  }
+
+  ingest(sample: Sample): void {
+    if (this.dataClock) {
+      // A message refused by the decoder carries the box's time; on the data clock it belongs at the data's now.
+      if (sample.quality === "bad" && sample.sourceTimeMs === sample.receiveTimeMs && this.lastTickMs && sample.qualityReason) {
+        sample.sourceTimeMs = sample.receiveTimeMs = this.lastTickMs;
+      } else sample.receiveTimeMs = sample.sourceTimeMs;
+      for (const t of this.dataClock.due(sample.sourceTimeMs)) this.tick(t);
+    }
+    const outcome = this.engine.ingest(sample);
+    if (outcome === "accepted") this.historian.appendSample(sample);
+    else this.rejectedByCore[outcome] = (this.rejectedByCore[outcome] ?? 0) + 1;
+  }
+
+  tick(nowMs: number): void {
+    this.lastTickMs = nowMs;
+    const events = this.engine.tick(nowMs);
+    this.record(events);
+  }
+
+  private record(events: CoreEvent[]): void {
+    const transitions: AdvisoryTransition[] = [];
+    for (const e of events) {
+      if (e.kind === "derived") this.historian.appendDerived(e);
+      else {
+        this.historian.appendTransition(e);
+        transitions.push(e);
+        this.opts.log[e.tier === "warning" && e.transition !== "clear" ? "warn" : "info"](
+          `advisory ${e.advisoryId} ${e.transition} (${e.from} -> ${e.to}, ${e.tier}) at ${new Date(e.atMs).toISOString()}: ${e.why} [advisory only]`,
+        );
+      }
+    }
+    this.hub.changed(transitions);
+  }
+
+  health(): HealthView {
+    const h = this.historian.stats();
+    const sources = this.sources.map((s) => {
+      const st = s.stats();
+      return { id: st.id, kind: st.kind, connected: st.connected, samples: st.samples, rejected: st.rejected, lastError: st.lastError };
+    });
+    const ok = h.state === "ok" && sources.every((s) => s.connected);
+    return {
+      status: ok ? "ok" : "degraded",
+      advisoryOnly: ADVISORY_ONLY,
+      startedAtMs: this.startedAtMs,
+      nowMs: this.lastTickMs,
+      sources,
+      historian: { state: h.state, queueDepth: h.queueDepth, rowsWritten: h.rowsWritten, lastError: h.lastError },
+    };
+  }
+
+  appDeps(): AppDeps {
+    const series = new Set(this.engine.seriesNames());
+    const signalIds = new Set(this.opts.config.signals.map((s) => s.id));
+    return {
+      getState: () => this.engine.snapshot(),
+      health: () => this.health(),
+      advisories: ({ limit }) => {
+        this.historian.flush();
+        return { active: this.engine.currentAdvisories(), history: this.historian.transitions({ limit, newestFirst: true }) };
+      },
+      acknowledge: (advisoryId, by, note) => {
+        const atMs = this.dataClock ? this.lastTickMs : this.now();
+        const r = this.engine.command({ kind: "ack", advisoryId, by, atMs, note });
+        if (!r.ok) return r;
+        this.record(r.events);
+        return { ok: true, advisory: r.advisory ?? this.engine.currentAdvisories().find((a) => a.id === advisoryId)! };
+      },
+      trend: (name, fromMs, toMs) => {
+        if (!series.has(name)) throw new UnknownSeriesError(name);
+        this.historian.flush();
+        if (signalIds.has(name)) return this.historian.samples(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.quality }));
+        return this.historian.derived(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.status }));
+      },
+      subscribe: (l) => this.hub.subscribe(l),
+      dashboardDir: DASHBOARD_DIR,
+    };
+  }
+
+  async stop(): Promise<void> {
+    if (this.timer) clearInterval(this.timer);
+    this.timer = null;
+    for (const s of this.sources) await s.stop().catch(() => undefined);
+    this.hub.stop();
+    if (this.server) await this.server.close();
+    this.server = null;
+    this.historian.close();
+  }
+}

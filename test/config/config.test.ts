@@ -1,0 +1,123 @@
+// Every file in config/ must parse; broken configs must say file:line:column, the key,
+// what was expected and what was found.
+import { readdirSync } from "node:fs";
+import { join } from "node:path";
+import { describe, expect, it } from "vitest";
+import { ConfigError, loadConfig, parseConfig } from "../../src/config/load.js";
+
+const CONFIG_DIR = join(import.meta.dirname, "../../config");
+const configFiles = readdirSync(CONFIG_DIR).filter((f) => /\.ya?ml$/.test(f));
+
+describe("every example config in config/", () => {
+  it("there is at least the demo config", () => {
+    expect(configFiles).toContain("demo.yaml");
+  });
+  for (const f of configFiles) {
+    it(`${f} parses and validates`, () => {
+      const cfg = loadConfig(join(CONFIG_DIR, f));
+      expect(cfg.signals.length).toBeGreaterThan(0);
+      expect(cfg.units.length).toBeGreaterThan(0);
+    });
+  }
+});
+
+function problemsOf(text: string) {
+  try {
+    parseConfig(text, "plant.yaml");
+  } catch (e) {
+    expect(e).toBeInstanceOf(ConfigError);
+    return (e as ConfigError).problems;
+  }
+  throw new Error("expected a ConfigError");
+}
+
+const minimal = `site:
+  name: Testfield
+  plant: Line 1
+  barometricPressureHPa: 1013
+sources:
+  - id: m
+    kind: mqtt
+    url: mqtt://127.0.0.1:18831
+signals:
+  - { id: a.temp, name: Gas temperature, tag: TT-1, source: m, topic: t/1, unit: degC, expectedPeriodS: 1 }
+  - { id: a.h2o, name: Moisture, tag: AT-2, source: m, topic: t/2, unit: pctVol, expectedPeriodS: 1 }
+units:
+  - { id: u1, name: Filter, kind: bag-filter }
+`;
+
+describe("config errors name file, line, key, expectation and finding", () => {
+  it("the minimal config is valid", () => {
+    expect(parseConfig(minimal, "plant.yaml").signals).toHaveLength(2);
+  });
+
+  it("a wrong type gives file:line:column and what was found", () => {
+    const p = problemsOf(minimal.replace("barometricPressureHPa: 1013", "barometricPressureHPa: high"));
+    expect(p).toHaveLength(1);
+    expect(p[0]).toMatchObject({ file: "plant.yaml", line: 4, key: "site.barometricPressureHPa" });
+    expect(p[0]!.message).toMatch(/expected number/);
+    expect(p[0]!.message).toMatch(/found string "high"/);
+  });
+
+  it("an unknown unit names the list of known units and the line", () => {
+    const p = problemsOf(minimal.replace("unit: degC", "unit: celsius"));
+    expect(p[0]).toMatchObject({ line: 10, key: "signals[0].unit" });
+    expect(p[0]!.message).toMatch(/degC/);
+    expect(p[0]!.message).toMatch(/found string "celsius"/);
+  });
+
+  it("an unknown key is reported at its own line", () => {
+    const p = problemsOf(minimal.replace("  plant: Line 1\n", "  plant: Line 1\n  plnat: typo\n"));
+    expect(p[0]).toMatchObject({ line: 4, key: "site.plnat" });
+    expect(p[0]!.message).toMatch(/unknown key "plnat"/);
+  });
+
+  it("a dangling reference names what exists", () => {
+    const text = minimal + `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.temp, h2o: a.h2o_typo }\n`;
+    const p = problemsOf(text);
+    expect(p[0]).toMatchObject({ line: 15, key: "dewPoints[0].h2o" });
+    expect(p[0]!.message).toMatch(/unknown signal "a.h2o_typo".*a\.temp, a\.h2o/);
+  });
+
+  it("a signal of the wrong kind of unit is refused", () => {
+    const text = minimal + `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.h2o, h2o: a.h2o }\n`;
+    expect(problemsOf(text)[0]!.message).toMatch(/in pctVol, expected a temperature unit/);
+  });
+
+  it("a rule on an unknown quantity suggests derived keys", () => {
+    const text =
+      minimal +
+      `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.temp, h2o: a.h2o }\n` +
+      `rules:\n  - { id: r1, title: T, quantity: dewpoint.d1.margin, direction: low, tiers: { caution: 15 }, cause: c, consequence: c, check: c, origin: common practice }\n`;
+    const p = problemsOf(text);
+    expect(p[0]!.key).toBe("rules[0].quantity");
+    expect(p[0]!.message).toMatch(/dewpoint\.d1\.marginK/);
+  });
+
+  it("tiers out of order are refused", () => {
+    const text =
+      minimal +
+      `rules:\n  - { id: r1, title: T, quantity: a.temp, direction: high, tiers: { caution: 90, warning: 80 }, cause: c, consequence: c, check: c, origin: common practice }\n`;
+    expect(problemsOf(text)[0]!.message).toMatch(/rising from notice to warning/);
+  });
+
+  it("YAML syntax errors carry the position", () => {
+    const p = problemsOf("site:\n  name: [unclosed\n");
+    expect(p[0]!.file).toBe("plant.yaml");
+    expect(p[0]!.message).toMatch(/YAML syntax/);
+    expect(p[0]!.line).toBeGreaterThanOrEqual(2);
+  });
+
+  it("a missing file is a config error naming the path", () => {
+    expect(() => loadConfig("/nonexistent/millwarden.yaml")).toThrow(/nonexistent\/millwarden.yaml.*cannot read/);
+  });
+
+  it("an O2 unit on another basis than its limit needs an H2O signal", () => {
+    const text =
+      minimal.replace("unit: pctVol, expectedPeriodS: 1 }", "unit: pctVol, expectedPeriodS: 1 }\n  - { id: a.o2, name: O2, tag: AT-3, source: m, topic: t/3, unit: pctVol, basis: dry, expectedPeriodS: 1 }") +
+      `  - id: u2\n    name: Mill\n    kind: mill\n    oxygen:\n      signal: a.o2\n      siteMaximum: { pctVol: 12, basis: wet, origin: common practice }\n`;
+    const p = problemsOf(text);
+    expect(p[0]!.key).toBe("units[1].oxygen");
+    expect(p[0]!.message).toMatch(/expected h2oSignal/);
+  });
+});
