@@ -24,9 +24,14 @@ export class SignalState {
   outOfOrder = 0;
   duplicates = 0;
   readonly unitSymbol: string;
+  /** The configured range converted to canonical units. */
+  private readonly range: [number, number] | null;
 
   constructor(readonly cfg: SignalConfig) {
-    this.unitSymbol = unitDef(cfg.unit).canonical;
+    const def = unitDef(cfg.unit);
+    this.unitSymbol = def.canonical;
+    const r = cfg.range?.map(def.toCanonical);
+    this.range = r ? [Math.min(r[0]!, r[1]!), Math.max(r[0]!, r[1]!)] : null;
   }
 
   /**
@@ -39,7 +44,7 @@ export class SignalState {
       else this.outOfOrder++;
       return false;
     }
-    const r = this.cfg.range;
+    const r = this.range;
     let quality = s.quality;
     let reason = s.qualityReason ?? null;
     if (!Number.isFinite(s.value)) {
@@ -47,7 +52,7 @@ export class SignalState {
       reason = reason ?? "not a finite number";
     } else if (r && (s.value < r[0] || s.value > r[1]) && quality !== "bad") {
       quality = "bad";
-      reason = `out of range ${r[0]}..${r[1]} ${this.unitSymbol}`;
+      reason = `out of range ${this.cfg.range![0]}..${this.cfg.range![1]} ${this.cfg.unit}`;
     }
     this.value = Number.isFinite(s.value) ? s.value : null;
     this.quality = quality;

@@ -46,7 +46,7 @@ const signal = z.strictObject({
   unit: z.enum(UNIT_NAMES as [string, ...string[]]),
   scale: z.number().default(1),
   offset: z.number().default(0),
-  /** Plausible range in canonical units; values outside are marked bad. */
+  /** Plausible range in the signal's own unit (after scale and offset); values outside are marked bad. */
   range: z.tuple([z.number(), z.number()]).optional(),
   expectedPeriodS: positive,
   /** For O2 signals: what the analyser reads (in-situ probes read wet, extractive with a cooler dry). */
