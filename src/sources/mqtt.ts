@@ -19,7 +19,10 @@ export interface SourceStats {
 
 export interface Source {
   readonly id: string;
+  /** Starts connecting and returns at once: a broker that is down must not hold up the daemon. */
   start(onSample: (s: Sample) => void): Promise<void>;
+  /** Resolves once the source is connected and subscribed (for tests and `check`). */
+  whenReady(): Promise<void>;
   stop(): Promise<void>;
   stats(): SourceStats;
 }
@@ -42,6 +45,8 @@ export class MqttSource implements Source {
   private readonly rejectedBy: Record<string, number> = {};
   private lastError: string | null = null;
   private readonly lastLog = new Map<string, number>();
+  private markReady!: () => void;
+  private readonly ready = new Promise<void>((ok) => (this.markReady = ok));
 
   constructor(
     private readonly cfg: SourceConfig,
@@ -74,6 +79,7 @@ export class MqttSource implements Source {
       this.deps.log("info", `source ${this.id}: connected to ${this.cfg.url}`);
       client.subscribe([...this.byTopic.keys()], { qos: this.cfg.qos }, (err) => {
         if (err) this.fail(`subscribe failed: ${err.message}`);
+        else this.markReady();
       });
     });
     client.on("close", () => {
@@ -113,6 +119,10 @@ export class MqttSource implements Source {
       } else this.samples++;
       onSample(r.sample);
     }
+  }
+
+  whenReady(): Promise<void> {
+    return this.ready;
   }
 
   async stop(): Promise<void> {
