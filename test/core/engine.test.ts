@@ -55,21 +55,22 @@ describe("dew point margin", () => {
 
 describe("inerting state", () => {
   it("compares O2 on each limit's own basis and names the governing limit", () => {
-    // vm2: O2 9 % wet, H2O 10 %. Site maximum 12 % wet -> margin 3.0 %-pt.
-    // LOC 14 % dry, continuous -> 12 % dry (NFPA 69, LOC - 2); 9 % wet = 10 % dry -> margin 2.0 %-pt: governs.
-    for (const s of steady(T0)) engine.ingest(s);
+    // vm2: O2 9.5 % wet, H2O 10 %. Site maximum 12 % wet -> margin 2.5 %-pt.
+    // LOC 15 % dry, continuous -> 13 % dry (NFPA 69: LOC - 2 when LOC >= 5 %);
+    // 9.5 % wet = 9.5 / 0.9 = 10.556 % dry (O2_dry = O2_wet / (1 - x_H2O)) -> margin 2.444 %-pt: governs.
+    for (const s of steady(T0, { "vm2.outlet.o2": 9.5 })) engine.ingest(s);
     engine.tick(T0 + 500);
     const u = engine.snapshot().units.find((x) => x.id === "vm2")!.inerting!;
     expect(u.state).toBe("inert");
     expect(u.basis).toBe("dry");
-    expect(u.limitPctVol).toBeCloseTo(12, 9);
-    expect(u.o2PctVol!).toBeCloseTo(10, 9);
-    expect(u.marginPctPt!).toBeCloseTo(2, 9);
+    expect(u.limitPctVol).toBeCloseTo(13, 9);
+    expect(u.o2PctVol!).toBeCloseTo(9.5 / 0.9, 9);
+    expect(u.marginPctPt!).toBeCloseTo(13 - 9.5 / 0.9, 9);
     expect(u.limitSource).toMatch(/NFPA 69/);
   });
 
   it("is marginal within the band, not inert above the limit", () => {
-    for (const s of steady(T0, { "vm2.outlet.o2": 10.35 })) engine.ingest(s); // 11.5 % dry: margin 0.5
+    for (const s of steady(T0, { "vm2.outlet.o2": 11.2 })) engine.ingest(s); // 12.444 % dry: margin 0.556 < band 1.5
     engine.tick(T0 + 500);
     expect(engine.snapshot().units.find((x) => x.id === "vm2")!.inerting!.state).toBe("marginal");
     for (const s of steady(T0 + 1000, { "vm2.outlet.o2": 15 })) engine.ingest(s);
