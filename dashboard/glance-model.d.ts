@@ -1,0 +1,37 @@
+// Types for glance-model.js (plain JS in the browser, typed here for the tests).
+import type { AdvisoryView, DewPointView, InertingState, InertingView, SignalView, Tier } from "../src/core/types.js";
+
+export function sortAdvisories(advisories: readonly AdvisoryView[]): AdvisoryView[];
+export function formatAge(ms: number): string;
+export function formatNumber(value: number | null | undefined, digits: number): string;
+export function formatSigned(value: number | null | undefined, digits: number): string;
+export function formatClock(ms: number): string;
+export function formatDateTime(ms: number): string;
+export function staleText(signal: SignalView | undefined, nowMs: number): string | null;
+export const INERTING_WORDS: Record<InertingState, string>;
+export const INERTING_TIER: Partial<Record<InertingState, Tier>>;
+export const O2_SCALE_MAX_PCT: number;
+export function o2BarGeometry(
+  inerting: InertingView,
+  scaleMaxPct?: number,
+): { value: number | null; limit: number; bandStart: number };
+export function lowestMargin(dewPoints: readonly DewPointView[]): DewPointView | null;
+export function advisoryTarget(advisory: Pick<AdvisoryView, "quantity">): { kind: string; id: string } | null;
+export function worstTierFor(advisories: readonly AdvisoryView[], kind: string, id: string): Tier | null;
+
+export interface History {
+  readonly windowMs: number;
+  readonly capacity: number;
+}
+export function createHistory(windowMs: number, capacity: number): History;
+export function recordPoint(history: History, id: string, tMs: number, value: number | null): void;
+export function readSeries(history: History, id: string, nowMs: number): [number, number | null][];
+export function pruneHistory(history: History, keepIds: Iterable<string>): void;
+export function sparklineRuns(
+  series: readonly [number, number | null][],
+  fromMs: number,
+  toMs: number,
+  width: number,
+  height: number,
+  minSpan?: number,
+): { runs: string[]; min: number | null; max: number | null };

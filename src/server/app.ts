@@ -1,0 +1,199 @@
+// The HTTP API and dashboard host. buildApp only builds (no listen), so tests drive it
+// with inject(); listen.ts binds it to a port. The server keeps no plant state: every
+// route reads through AppDeps.
+//
+//   GET  /api/health               deps.health()          200 ok / 503 degraded
+//   GET  /api/state                deps.getState()
+//   GET  /api/advisories?limit=N   deps.advisories()
+//   POST /api/advisories/:id/ack   deps.acknowledge()     404 / 409 passed through
+//   GET  /api/trend?signal&from&to deps.trend()
+//   WS   /api/live                 snapshot, then deps.subscribe() messages (live.ts)
+//   GET  /*                        files from deps.dashboardDir
+import { existsSync } from "node:fs";
+import { join } from "node:path";
+import fastifyStatic from "@fastify/static";
+import websocket from "@fastify/websocket";
+import Fastify, { type FastifyError, type FastifyInstance, type FastifyReply } from "fastify";
+import { UnknownSeriesError, type AppDeps } from "./deps.js";
+import { ApiError, describeFound, type ApiErrorBody, type ApiErrorCode } from "./errors.js";
+import { LiveHub, type LiveHubOptions } from "./live.js";
+import { parseAckBody, parseAdvisoryId, parseAdvisoryQuery, parseTrendQuery, rejectUnknown } from "./params.js";
+
+export interface BuildAppOptions {
+  /** Passed to fastify: false (default) for tests, true or a pino options object in the daemon. */
+  logger?: boolean | object;
+  live?: LiveHubOptions;
+}
+
+/** GET /api/trend answers with compact tuples: [tMs, value, quality]. */
+export interface TrendResponse {
+  signal: string;
+  fromMs: number;
+  toMs: number;
+  points: [number, number | null, string][];
+}
+
+type Query = Record<string, string | string[] | undefined>;
+
+// Security headers until a full helmet setup arrives with login. The dashboard loads
+// only its own files, so everything else (framing included) is refused.
+const SECURITY_HEADERS: Record<string, string> = {
+  "x-content-type-options": "nosniff",
+  "x-frame-options": "DENY",
+  "content-security-policy":
+    "default-src 'self'; connect-src 'self'; img-src 'self' data:; object-src 'none'; " +
+    "base-uri 'none'; form-action 'self'; frame-ancestors 'none'",
+  "referrer-policy": "no-referrer",
+  "cross-origin-opener-policy": "same-origin",
+};
+
+function setSecurityHeaders(reply: FastifyReply): void {
+  for (const [name, value] of Object.entries(SECURITY_HEADERS)) reply.header(name, value);
+}
+
+function sendError(reply: FastifyReply, status: number, code: ApiErrorCode, message: string): FastifyReply {
+  const body: ApiErrorBody = { error: code, message };
+  // Set here too: router errors (frameworkErrors) are answered before any onSend hook exists.
+  setSecurityHeaders(reply);
+  return reply.code(status).type("application/json; charset=utf-8").send(body);
+}
+
+export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promise<FastifyInstance> {
+  const app = Fastify({
+    logger: opts.logger ?? false,
+    // The only body is an acknowledgement (name + note of at most 500 characters).
+    bodyLimit: 16 * 1024,
+    // Longer than any advisory id we accept, so params.ts gives the precise message.
+    routerOptions: { maxParamLength: 256 },
+    // Errors the router raises before any route runs get the same JSON body.
+    frameworkErrors: (err, request, reply) => {
+      if (err.code === "FST_ERR_MAX_PARAM_LENGTH") {
+        return sendError(reply, 400, "BAD_PARAM", `path parameter: expected at most 200 characters, found a longer one in ${request.method} ${request.url.slice(0, 80)}…`);
+      }
+      return sendError(reply, 400, "BAD_REQUEST", `request URL: expected valid percent-encoding, found ${describeFound(request.url)}`);
+    },
+  });
+  const hub = new LiveHub(deps, app.log, opts.live);
+
+  app.addHook("onSend", async (request, reply, payload) => {
+    setSecurityHeaders(reply);
+    // Plant data must never be served from a cache after the fact.
+    if (request.url.startsWith("/api/")) reply.header("cache-control", "no-store");
+    return payload;
+  });
+
+  app.setErrorHandler((err: FastifyError, request, reply) => {
+    if (err instanceof ApiError) return sendError(reply, err.statusCode, err.code, err.message);
+    switch (err.code) {
+      case "FST_ERR_CTP_INVALID_MEDIA_TYPE":
+        return sendError(
+          reply,
+          415,
+          "UNSUPPORTED_MEDIA_TYPE",
+          `request body: expected Content-Type application/json, found ${describeFound(request.headers["content-type"])}`,
+        );
+      case "FST_ERR_CTP_EMPTY_JSON_BODY":
+        return sendError(reply, 400, "BAD_BODY", "request body: expected a JSON object, found an empty body");
+      case "FST_ERR_CTP_INVALID_JSON_BODY":
+        return sendError(reply, 400, "BAD_BODY", "request body: expected valid JSON, found text that does not parse as JSON");
+      case "FST_ERR_CTP_BODY_TOO_LARGE":
+        return sendError(reply, 413, "BODY_TOO_LARGE", "request body: expected at most 16 KiB, found more");
+      default:
+        break;
+    }
+    const status = typeof err.statusCode === "number" ? err.statusCode : 500;
+    if (status >= 400 && status < 500) {
+      return sendError(reply, status, "BAD_REQUEST", `request: ${err.message}`);
+    }
+    // Internals stay in the log; the client gets a pointer, not a stack.
+    request.log.error({ err }, "request failed");
+    return sendError(reply, 500, "INTERNAL", "internal error while handling the request; the server log has the details");
+  });
+
+  app.setNotFoundHandler((request, reply) =>
+    sendError(
+      reply,
+      404,
+      "NOT_FOUND",
+      `${request.method} ${request.url.split("?")[0]}: no such route or file` +
+        (request.url.startsWith("/api/")
+          ? "; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/ack, /api/trend, /api/live"
+          : ""),
+    ),
+  );
+
+  await app.register(websocket, {
+    // Clients only listen; anything they send is small or a mistake.
+    options: { maxPayload: 4096 },
+    // Replaces the plugin's default: close our clients (with a deadline) so app.close() cannot hang.
+    preClose: async () => {
+      await hub.closeAll();
+      app.websocketServer.close();
+    },
+  });
+
+  app.get("/api/health", async (request, reply) => {
+    rejectUnknown(request.query as Query, []);
+    const health = deps.health();
+    return reply.code(health.status === "ok" ? 200 : 503).send(health);
+  });
+
+  app.get("/api/state", async (request) => {
+    rejectUnknown(request.query as Query, []);
+    return deps.getState();
+  });
+
+  app.get("/api/advisories", async (request) => {
+    const { limit } = parseAdvisoryQuery(request.query as Query);
+    return deps.advisories({ limit });
+  });
+
+  app.post<{ Params: { id: string } }>("/api/advisories/:id/ack", async (request, reply) => {
+    const id = parseAdvisoryId(request.params.id);
+    // Only JSON: a text/plain POST is a "simple" cross-site request a browser sends without asking.
+    const contentType = request.headers["content-type"] ?? "";
+    if (!/^application\/json\s*(;|$)/i.test(contentType)) {
+      throw new ApiError(
+        "UNSUPPORTED_MEDIA_TYPE",
+        `request body: expected Content-Type application/json, found ${describeFound(contentType || undefined)}`,
+      );
+    }
+    const body = parseAckBody(request.body);
+    const result = deps.acknowledge(id, body.by, body.note);
+    if (result.ok) return reply.code(200).send({ advisory: result.advisory });
+    return sendError(reply, result.status, result.status === 404 ? "ADVISORY_NOT_FOUND" : "ADVISORY_CONFLICT", result.error);
+  });
+
+  app.get("/api/trend", async (request): Promise<TrendResponse> => {
+    const { signal, fromMs, toMs } = parseTrendQuery(request.query as Query, () => deps.getState().nowMs);
+    try {
+      const points = deps.trend(signal, fromMs, toMs);
+      return { signal, fromMs, toMs, points: points.map((p) => [p.tMs, p.value, p.quality]) };
+    } catch (err) {
+      if (err instanceof UnknownSeriesError) throw new ApiError("UNKNOWN_SERIES", err.message);
+      throw err;
+    }
+  });
+
+  app.route({
+    method: "GET",
+    url: "/api/live",
+    handler: async (_request, reply) =>
+      sendError(reply, 426, "UPGRADE_REQUIRED", "GET /api/live: expected a WebSocket upgrade request, found a plain HTTP request"),
+    wsHandler: (socket) => hub.add(socket),
+  });
+
+  // The API works without the dashboard, so a missing folder is a warning, not a failure.
+  if (!existsSync(join(deps.dashboardDir, "index.html"))) {
+    app.log.warn({ dashboardDir: deps.dashboardDir }, "dashboard folder: expected index.html there, found none; / will answer 404");
+  }
+  await app.register(fastifyStatic, {
+    root: deps.dashboardDir,
+    prefix: "/",
+    index: ["index.html"],
+    // Revalidate every time: after an upgrade the browser must not mix old and new files.
+    maxAge: 0,
+  });
+
+  return app;
+}

@@ -1,0 +1,55 @@
+// The one registry of error codes the HTTP API answers with. Every error body is
+// { error: <code>, message: <what was expected, where, what was found> }.
+// Codes are part of the API: add new ones, never rename or reuse a retired one.
+
+export const API_ERRORS = {
+  BAD_QUERY: { status: 400, doc: "A query parameter is missing, malformed or out of range." },
+  BAD_PARAM: { status: 400, doc: "A path parameter is malformed." },
+  BAD_REQUEST: { status: 400, doc: "The request itself is malformed (URL encoding, headers)." },
+  BAD_BODY: { status: 400, doc: "The request body is not the JSON object the route expects." },
+  BODY_TOO_LARGE: { status: 413, doc: "The request body exceeds the route's size limit." },
+  UNSUPPORTED_MEDIA_TYPE: { status: 415, doc: "The request body is not application/json." },
+  UPGRADE_REQUIRED: { status: 426, doc: "The path is a WebSocket endpoint; plain HTTP requests are refused." },
+  NOT_FOUND: { status: 404, doc: "No route or file at this path." },
+  ADVISORY_NOT_FOUND: { status: 404, doc: "No current advisory has this id." },
+  ADVISORY_CONFLICT: { status: 409, doc: "The advisory is not in a state that accepts the command (e.g. already acknowledged)." },
+  UNKNOWN_SERIES: { status: 404, doc: "The trend series is neither a signal id nor a derived key." },
+  INTERNAL: { status: 500, doc: "Unexpected failure inside the server; details are in the server log only." },
+} as const satisfies Record<string, { status: number; doc: string }>;
+
+export type ApiErrorCode = keyof typeof API_ERRORS;
+
+export interface ApiErrorBody {
+  error: ApiErrorCode;
+  message: string;
+}
+
+/** Thrown by route handlers; the app's error handler turns it into the JSON body. */
+export class ApiError extends Error {
+  readonly statusCode: number;
+  constructor(
+    readonly code: ApiErrorCode,
+    message: string,
+  ) {
+    super(message);
+    this.name = "ApiError";
+    this.statusCode = API_ERRORS[code].status;
+  }
+
+  toBody(): ApiErrorBody {
+    return { error: this.code, message: this.message };
+  }
+}
+
+/** Quote a value the client sent, shortened so an error text stays readable (and bounded). */
+export function describeFound(value: unknown): string {
+  if (value === undefined) return "nothing";
+  if (value === null) return "null";
+  if (typeof value === "string") {
+    const shown = value.length > 40 ? `${value.slice(0, 40)}…` : value;
+    return `"${shown}"${value.length > 40 ? ` (${value.length} characters)` : ""}`;
+  }
+  if (typeof value === "number" || typeof value === "boolean") return `${typeof value} ${String(value)}`;
+  if (Array.isArray(value)) return `an array of ${value.length}`;
+  return typeof value === "object" ? "an object" : typeof value;
+}
