@@ -69,7 +69,7 @@ export function parseConfig(textContent: string, file: string): MillwardenConfig
   const lines = new LineCounter();
   const doc = parseDocument(textContent, { lineCounter: lines, prettyErrors: false, uniqueKeys: true });
   const problems: ConfigProblem[] = [];
-  for (const e of [...doc.errors]) {
+  for (const e of doc.errors) {
     const pos = lines.linePos(e.pos[0]);
     problems.push({ file, line: pos.line, column: pos.col, key: "", message: `YAML syntax: ${e.message.split("\n")[0]}` });
   }

@@ -1,7 +1,7 @@
 // The daemon: the edges around the pure core.
 //
 //   sources (MQTT) ─Sample─▶ clock ─Tick─▶ Engine ─events─▶ historian (SQLite, batched)
-//                                            ▲            └▶ live hub ─▶ WebSocket clients
+//                                            ▲            └▶ change feed ─▶ WebSocket clients
 //                                 Command ───┘ (HTTP API)
 //
 // With `clock: wall` the core is ticked once a second from the box's clock; with
@@ -16,7 +16,7 @@ import type { AdvisoryTransition, CoreEvent, Sample } from "../core/types.js";
 import { ADVISORY_ONLY } from "../core/types.js";
 import { Historian } from "../store/historian.js";
 import { MqttSource, type Source } from "../sources/mqtt.js";
-import { LiveHub } from "./live-hub.js";
+import { ChangeFeed } from "./change-feed.js";
 import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
 import { startServer } from "../server/listen.js";
 import type { Logger } from "./log.js";
@@ -37,7 +37,7 @@ export interface DaemonOptions {
 export class Daemon {
   readonly engine: Engine;
   readonly historian: Historian;
-  readonly hub: LiveHub;
+  readonly feed: ChangeFeed;
   readonly sources: Source[];
   url: string | null = null;
   private server: { close(): Promise<void> } | null = null;
@@ -54,7 +54,7 @@ export class Daemon {
     this.startedAtMs = this.now();
     this.engine = new Engine(cfg);
     this.historian = Historian.open({ path: resolve(opts.baseDir ?? process.cwd(), cfg.storage.path), synchronous: cfg.storage.synchronous });
-    this.hub = new LiveHub(() => this.engine.snapshot());
+    this.feed = new ChangeFeed(() => this.engine.snapshot());
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
     this.sources = cfg.sources.map((s) => {
       // On the data clock the box's own clock says nothing about the data's time.
@@ -72,7 +72,7 @@ export class Daemon {
   private async begin(): Promise<void> {
     const { config: cfg, log } = this.opts;
     this.historian.start();
-    this.hub.start();
+    this.feed.start();
     if (!this.dataClock) {
       this.tick(this.now());
       this.timer = setInterval(() => this.tick(this.now()), 1000);
@@ -123,7 +123,7 @@ export class Daemon {
         );
       }
     }
-    this.hub.changed(transitions);
+    this.feed.changed(transitions);
   }
 
   health(): HealthView {
@@ -166,7 +166,7 @@ export class Daemon {
         if (signalIds.has(name)) return this.historian.samples(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.quality }));
         return this.historian.derived(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.status }));
       },
-      subscribe: (l) => this.hub.subscribe(l),
+      subscribe: (l) => this.feed.subscribe(l),
       dashboardDir: DASHBOARD_DIR,
     };
   }
@@ -175,7 +175,7 @@ export class Daemon {
     if (this.timer) clearInterval(this.timer);
     this.timer = null;
     for (const s of this.sources) await s.stop().catch(() => undefined);
-    this.hub.stop();
+    this.feed.stop();
     if (this.server) await this.server.close();
     this.server = null;
     this.historian.close();

@@ -1,4 +1,4 @@
-// Fans the core's state out to WebSocket clients as deltas: only entries that
+// Turns the core's state into deltas for the live view: only entries that
 // changed since the last push, coalesced to at most one push per interval so a
 // fast replay or simulation cannot flood the browsers.
 import type { AdvisoryTransition, LiveMessage, PlantState } from "../core/types.js";
@@ -7,7 +7,7 @@ type Listener = (msg: LiveMessage) => void;
 type Section = "signals" | "units" | "dewPoints" | "coPoints";
 const SECTIONS: Section[] = ["signals", "units", "dewPoints", "coPoints"];
 
-export class LiveHub {
+export class ChangeFeed {
   private readonly listeners = new Set<Listener>();
   private readonly last = new Map<string, string>();
   private lastAdvisories = "";
