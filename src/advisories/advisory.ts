@@ -114,7 +114,7 @@ export class Advisory {
     this.activeTier = tier;
     this.lastTier = tier;
     this.lastChangeMs = nowMs;
-    return this.transition("de-escalate", this.state, nowMs, SYSTEM_USER, `${this.quantityLabel} back below the higher threshold, now ${tier}`);
+    return this.transition("de-escalate", this.state, nowMs, SYSTEM_USER, `${this.quantityLabel} ${fmt(this.value)} ${this.unitSymbol} no longer beyond the higher threshold; now ${tier}`);
   }
 
   private clear(nowMs: number): AdvisoryTransition {

@@ -94,7 +94,7 @@ async function cmdDemo(args: string[]): Promise<number> {
     startTimeMs: Date.now(),
     loop: true,
     signal: abort.signal,
-    log: (m) => log.info(`simulator: ${m}`),
+    log: (m) => log.info(m),
   }).catch((e: Error) => log.error(`simulator stopped: ${e.message}`));
   process.stdout.write(
     `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
