@@ -184,8 +184,8 @@ export async function main(argv: string[]): Promise<number> {
   }
 }
 
-const invoked = process.argv[1] && resolve(process.argv[1]);
-if (invoked === fileURLToPath(import.meta.url) || invoked?.endsWith("/bin/millwarden.js") || invoked?.endsWith("/bin/millwarden")) {
+// Run directly (tsx src/cli/main.ts); bin/millwarden.js imports main() instead.
+if (process.argv[1] && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {
   main(process.argv.slice(2)).then(
     (code) => process.exit(code),
     (e: Error) => {
