@@ -515,8 +515,33 @@ function receive(msg) {
   lastMessageAtMs = Date.now();
   const next = applyMessage(state, msg);
   if (next === state) return;
+  const first = state === null;
   state = next;
   if (state !== null) recordHistory();
+  if (first && state !== null) void seedHistory(state.nowMs);
+  render();
+}
+
+// A screen opened mid-shift shows the last 15 minutes at once, from the historian,
+// instead of an empty sparkline that fills over the next quarter of an hour.
+async function seedHistory(nowMs) {
+  await Promise.all(
+    state.coPoints.map(async (p) => {
+      try {
+        const q = new URLSearchParams({ signal: p.signal, from: String(nowMs - SPARK_WINDOW_MS), to: String(nowMs) });
+        const response = await fetch(`/api/trend?${q}`, { cache: "no-store" });
+        if (!response.ok) return;
+        const { points } = await response.json();
+        const live = readSeries(history, p.id, state.nowMs);
+        const firstLive = live.length ? live[0][0] : Number.POSITIVE_INFINITY;
+        history.rings.delete(p.id);
+        for (const [tMs, value, quality] of points) if (tMs < firstLive) recordPoint(history, p.id, tMs, quality === "bad" ? null : value);
+        for (const [tMs, value] of live) recordPoint(history, p.id, tMs, value);
+      } catch {
+        // The live feed fills the line by itself.
+      }
+    }),
+  );
   render();
 }
 
