@@ -2,8 +2,8 @@
 // input state is never modified, so the page can compare old and new, and vitest can
 // test it without a browser. Types: live-state.d.ts.
 
-/** Lists in a delta whose entries replace those with the same id (new ids are appended). */
-const KEYED_LISTS = ["signals", "units", "dewPoints", "coPoints"];
+/** Keys of a delta that are not lists of entries with an id. */
+const NOT_KEYED = new Set(["type", "nowMs", "advisories", "transitions"]);
 
 /**
  * @param {Array<{id: string}>} current
@@ -38,9 +38,10 @@ export function applyMessage(state, msg) {
   if (msg.type !== "delta" || state === null) return state;
   const next = { ...state };
   if (typeof msg.nowMs === "number") next.nowMs = msg.nowMs;
-  for (const key of KEYED_LISTS) {
-    const changes = msg[key];
-    if (Array.isArray(changes) && changes.length > 0) next[key] = replaceById(state[key], changes);
+  // Every other list patches the state's list of the same name, entry by entry (by id).
+  for (const [key, changes] of Object.entries(msg)) {
+    if (NOT_KEYED.has(key) || !Array.isArray(changes) || changes.length === 0) continue;
+    next[key] = replaceById(Array.isArray(state[key]) ? state[key] : [], changes);
   }
   // The advisory list is short, so a delta carries it whole when anything changed.
   if (Array.isArray(msg.advisories)) next.advisories = msg.advisories;

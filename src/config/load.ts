@@ -3,8 +3,12 @@
 import { readFileSync } from "node:fs";
 import { LineCounter, parseDocument, isNode, type Document } from "yaml";
 import { configSchema, type MillwardenConfig } from "./schema.js";
-import { unitDef } from "./units.js";
+import { unitDef, type Quantity } from "./units.js";
 import { derivedQuantities } from "../core/quantities.js";
+import type { CheckContext, Path } from "./sections/context.js";
+import { checkOxygen } from "./sections/oxygen.js";
+import { checkDewPoints } from "./sections/dew-point.js";
+import { checkCo } from "./sections/co.js";
 
 export interface ConfigProblem {
   file: string;
@@ -26,7 +30,6 @@ export function formatProblem(p: ConfigProblem): string {
   return `${p.file}:${p.line}:${p.column}: ${p.key || "(top level)"}: ${p.message}`;
 }
 
-type Path = (string | number)[];
 
 const keyOf = (path: Path) =>
   path.reduce<string>((acc, p) => (typeof p === "number" ? `${acc}[${p}]` : acc ? `${acc}.${p}` : p), "");
@@ -126,7 +129,7 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   duplicates(cfg.rules, "rules", loc, out);
   const signalById = new Map(cfg.signals.map((s) => [s.id, s]));
 
-  const needSignal = (path: Path, sid: string, quantity?: string, what?: string) => {
+  const needSignal = (path: Path, sid: string, quantity?: Quantity, what?: string) => {
     if (!signals.has(sid)) {
       out.push(loc.at(path, `unknown signal "${sid}": expected one of the ids under signals (${[...signals.keys()].slice(0, 8).join(", ")}${signals.size > 8 ? ", ..." : ""})`));
       return;
@@ -147,30 +150,10 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   });
   if (cfg.site.barometricSignal) needSignal(["site", "barometricSignal"], cfg.site.barometricSignal, "pressure", "a pressure unit (Pa, hPa, mbar, kPa, bar)");
 
-  cfg.units.forEach((u, i) => {
-    const o = u.oxygen;
-    if (!o) return;
-    needSignal(["units", i, "oxygen", "signal"], o.signal, "concentration-pct", "% vol (pctVol)");
-    const o2 = signalById.get(o.signal);
-    if (o2 && !o2.basis) out.push(loc.at(["units", i, "oxygen", "signal"], `O2 signal "${o.signal}" must declare its basis (wet or dry) under signals`));
-    if (!o.siteMaximum && !o.loc) out.push(loc.at(["units", i, "oxygen"], "expected a siteMaximum, a loc, or both: a unit's O2 needs a limit"));
-    if (o.h2oSignal) needSignal(["units", i, "oxygen", "h2oSignal"], o.h2oSignal, "concentration-pct", "% vol (pctVol)");
-    const bases = [o.siteMaximum?.basis, o.loc?.basis].filter(Boolean);
-    if (o2?.basis && bases.some((b) => b !== o2.basis) && !o.h2oSignal) {
-      out.push(loc.at(["units", i, "oxygen"], `the O2 signal reads ${o2.basis} but a limit is on another basis: expected h2oSignal for the wet/dry conversion`));
-    }
-  });
-  cfg.dewPoints.forEach((d, i) => {
-    needUnit(["dewPoints", i, "unit"], d.unit);
-    needSignal(["dewPoints", i, "gasTemperature"], d.gasTemperature, "temperature", "a temperature unit (degC, K, degF)");
-    needSignal(["dewPoints", i, "h2o"], d.h2o, "concentration-pct", "% vol (pctVol)");
-    if (d.gaugePressure) needSignal(["dewPoints", i, "gaugePressure"], d.gaugePressure, "pressure", "a pressure unit");
-  });
-  cfg.coPoints.forEach((c, i) => {
-    needUnit(["coPoints", i, "unit"], c.unit);
-    needSignal(["coPoints", i, "signal"], c.signal, "concentration-ppm", "ppm");
-    if (c.windowS <= c.transportLagS) out.push(loc.at(["coPoints", i, "windowS"], `expected a window longer than the transport lag (${c.transportLagS} s); found ${c.windowS} s`));
-  });
+  const ctx: CheckContext = { problem: (path, msg) => out.push(loc.at(path, msg)), needSignal, needUnit };
+  checkOxygen(cfg, ctx);
+  checkDewPoints(cfg, ctx);
+  checkCo(cfg, ctx);
 
   const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
   cfg.rules.forEach((r, i) => {

@@ -5,11 +5,10 @@
 import { z } from "zod";
 import { UNIT_NAMES } from "./units.js";
 
-const id = z
-  .string()
-  .regex(/^[a-z0-9][a-z0-9_-]*(\.[a-z0-9_-]+)*$/, "expected a lowercase id of letters, digits, - and _, dot-separated");
-const text = z.string().min(1);
-const positive = z.number().positive();
+import { id, positive, text } from "./sections/common.js";
+import { dewPointSection } from "./sections/dew-point.js";
+import { coSection } from "./sections/co.js";
+import { oxygenSchema } from "./sections/oxygen.js";
 
 const mqttSource = z.strictObject({
   id,
@@ -54,53 +53,11 @@ const signal = z.strictObject({
   analyser: z.string().min(1).optional(),
 });
 
-const limitOrigin = z.string().min(3);
-const oxygen = z.strictObject({
-  signal: id,
-  /** H2O signal (vol % wet) used to convert between wet and dry basis when the O2 and limit bases differ. */
-  h2oSignal: id.optional(),
-  siteMaximum: z
-    .strictObject({ pctVol: z.number().gt(0).lt(21), basis: z.enum(["wet", "dry"]), origin: limitOrigin })
-    .optional(),
-  loc: z
-    .strictObject({
-      pctVol: z.number().gt(0).lt(21),
-      basis: z.enum(["wet", "dry"]).default("dry"),
-      monitoring: z.enum(["continuous", "periodic"]),
-      origin: limitOrigin,
-    })
-    .optional(),
-  marginalBandPctPt: positive.default(1.5),
-});
-
 const unit = z.strictObject({
   id,
   name: text,
   kind: z.enum(["hot-gas-generator", "mill", "classifier", "bag-filter", "dust-hopper", "silo", "duct"]),
-  oxygen: oxygen.optional(),
-});
-
-const dewPoint = z.strictObject({
-  id,
-  name: text,
-  unit: id,
-  gasTemperature: id,
-  h2o: id,
-  /** Gauge pressure signal at the location; omitted means atmospheric. */
-  gaugePressure: id.optional(),
-});
-
-const coPoint = z.strictObject({
-  id,
-  name: text,
-  unit: id,
-  signal: id,
-  windowS: positive,
-  /** Analyser transport lag; the window must be longer than it. */
-  transportLagS: z.number().nonnegative(),
-  minPoints: z.number().int().min(3).default(10),
-  /** A gap longer than this restarts the window: no gradient across a gap. */
-  maxGapS: positive.default(30),
+  oxygen: oxygenSchema.optional(),
 });
 
 const tierThresholds = z
@@ -146,8 +103,8 @@ export const configSchema = z.strictObject({
   sources: z.array(mqttSource).min(1),
   signals: z.array(signal).min(1),
   units: z.array(unit).min(1),
-  dewPoints: z.array(dewPoint).default([]),
-  coPoints: z.array(coPoint).default([]),
+  ...dewPointSection,
+  ...coSection,
   rules: z.array(rule).default([]),
 });
 
@@ -155,6 +112,6 @@ export type MillwardenConfig = z.infer<typeof configSchema>;
 export type SignalConfig = MillwardenConfig["signals"][number];
 export type SourceConfig = MillwardenConfig["sources"][number];
 export type UnitConfig = MillwardenConfig["units"][number];
-export type DewPointConfig = MillwardenConfig["dewPoints"][number];
-export type CoPointConfig = MillwardenConfig["coPoints"][number];
+export type { DewPointConfig } from "./sections/dew-point.js";
+export type { CoPointConfig } from "./sections/co.js";
 export type RuleConfig = MillwardenConfig["rules"][number];

@@ -8,11 +8,12 @@
 // Samples only update state; everything derived is computed at a tick, once a second
 // live (wall clock) or at each whole second of the data's own time (replay).
 import type { MillwardenConfig } from "../config/schema.js";
-import { CoGradient } from "../analytics/co-gradient.js";
-import { evaluateDewPoint } from "../analytics/dew-point-margin.js";
-import { InertingEstimator } from "../analytics/inerting.js";
 import { SignalState, type Trust } from "../analytics/signal-state.js";
+import { DewPointMonitor } from "../analytics/dew-point-monitor.js";
+import { CoMonitor } from "../analytics/co-monitor.js";
+import { OxygenMonitor } from "../analytics/oxygen-monitor.js";
 import { Advisory } from "../advisories/advisory.js";
+import type { Monitor, TickContext } from "./calculator.js";
 import { derivedQuantities, type QuantityInfo } from "./quantities.js";
 import {
   ADVISORY_ONLY,
@@ -20,13 +21,10 @@ import {
   type AdvisoryTransition,
   type AdvisoryView,
   type Command,
-  type CoPointView,
   type CoreEvent,
   type DerivedValue,
-  type DewPointView,
   type PlantState,
   type Sample,
-  type UnitView,
 } from "./types.js";
 
 export type IngestOutcome = "accepted" | "unknown-signal" | "duplicate" | "out-of-order";
@@ -37,30 +35,23 @@ export type CommandOutcome =
 
 export class Engine {
   private readonly signals = new Map<string, SignalState>();
-  private readonly coBySignal = new Map<string, CoGradient[]>();
-  private readonly coPoints: CoGradient[] = [];
-  private readonly inerting: { estimator: InertingEstimator; h2o: string | undefined }[] = [];
+  private readonly dewPoints: DewPointMonitor;
+  private readonly co: CoMonitor;
+  private readonly oxygen: OxygenMonitor;
+  /** Run in this order at every tick: later monitors may read what earlier ones emitted. */
+  private readonly monitors: Monitor[];
   private readonly advisories: Advisory[] = [];
   private readonly advisoryById = new Map<string, Advisory>();
   readonly quantities: QuantityInfo[];
   private readonly derived = new Map<string, number | null>();
   private nowMs = 0;
-  private view: Omit<PlantState, "signals" | "advisories" | "nowMs" | "site" | "advisoryOnly"> = { units: [], dewPoints: [], coPoints: [] };
 
   constructor(readonly cfg: MillwardenConfig) {
     for (const s of cfg.signals) this.signals.set(s.id, new SignalState(s));
-    for (const c of cfg.coPoints) {
-      const g = new CoGradient(c);
-      this.coPoints.push(g);
-      const list = this.coBySignal.get(c.signal) ?? [];
-      list.push(g);
-      this.coBySignal.set(c.signal, list);
-    }
-    for (const u of cfg.units) {
-      if (!u.oxygen) continue;
-      const o2Basis = this.signals.get(u.oxygen.signal)!.cfg.basis!;
-      this.inerting.push({ estimator: new InertingEstimator({ ...u, oxygen: u.oxygen }, o2Basis), h2o: u.oxygen.h2oSignal });
-    }
+    this.dewPoints = new DewPointMonitor(cfg.dewPoints, { signal: cfg.site.barometricSignal, fallbackPa: cfg.site.barometricPressureHPa * 100 });
+    this.co = new CoMonitor(cfg.coPoints);
+    this.oxygen = new OxygenMonitor(cfg.units, cfg.signals);
+    this.monitors = [this.dewPoints, this.co, this.oxygen];
     this.quantities = derivedQuantities(cfg);
     const info = new Map<string, { unit: string; label: string }>(this.quantities.map((q) => [q.key, q]));
     for (const s of this.signals.values()) info.set(s.cfg.id, { unit: s.unitSymbol, label: s.cfg.name });
@@ -82,8 +73,7 @@ export class Engine {
     if (!state) return "unknown-signal";
     const before = state.duplicates;
     if (!state.accept(s)) return state.duplicates > before ? "duplicate" : "out-of-order";
-    const co = this.coBySignal.get(s.signal);
-    if (co) for (const g of co) g.add(s);
+    for (const m of this.monitors) m.ingest?.(s);
     return "accepted";
   }
 
@@ -95,56 +85,19 @@ export class Engine {
   tick(nowMs: number): CoreEvent[] {
     this.nowMs = nowMs;
     const out: CoreEvent[] = [];
-    const emit = (key: string, value: number | null, reason: string) => {
-      this.derived.set(key, value);
-      const d: DerivedValue = { kind: "derived", key, atMs: nowMs, value, status: value === null ? "unknown" : "ok" };
-      if (value === null) d.reason = reason;
-      out.push(d);
+    const ctx: TickContext = {
+      nowMs,
+      trust: (id) => this.trust(id, nowMs),
+      phase: () => null,
+      emit: (key, value, reason) => {
+        this.derived.set(key, value);
+        const d: DerivedValue = { kind: "derived", key, atMs: nowMs, value, status: value === null ? "unknown" : "ok" };
+        if (value === null) d.reason = reason;
+        out.push(d);
+      },
+      derived: (key) => this.derived.get(key),
     };
-
-    const baro = this.cfg.site.barometricSignal ? this.trust(this.cfg.site.barometricSignal, nowMs) : null;
-    const barometricPa = baro?.ok && baro.value !== null ? baro.value : this.cfg.site.barometricPressureHPa * 100;
-
-    const dewPoints: DewPointView[] = this.cfg.dewPoints.map((d) => {
-      const v = evaluateDewPoint(
-        d,
-        this.trust(d.gasTemperature, nowMs),
-        this.trust(d.h2o, nowMs),
-        d.gaugePressure ? this.trust(d.gaugePressure, nowMs) : null,
-        barometricPa,
-      );
-      emit(`dewpoint.${d.id}.dewPointC`, v.dewPointC, v.reason);
-      emit(`dewpoint.${d.id}.marginK`, v.marginK, v.reason);
-      return v;
-    });
-
-    const coPoints: CoPointView[] = this.coPoints.map((g) => {
-      const t = this.trust(g.cfg.signal, nowMs);
-      const r = g.evaluate(t.ok, t.reason);
-      emit(`co.${g.cfg.id}.gradientPpmPerMin`, r.gradientPpmPerMin, r.reason);
-      return {
-        id: g.cfg.id,
-        name: g.cfg.name,
-        unitId: g.cfg.unit,
-        signal: g.cfg.signal,
-        coPpm: t.ok ? t.value : null,
-        gradientPpmPerMin: r.gradientPpmPerMin,
-        windowS: g.cfg.windowS,
-        status: r.status,
-        reason: r.reason,
-      };
-    });
-
-    const inertingByUnit = new Map(
-      this.inerting.map(({ estimator, h2o }) => {
-        const v = estimator.evaluate(this.trust(estimator.unit.oxygen.signal, nowMs), h2o ? this.trust(h2o, nowMs) : null);
-        emit(`o2.${v.unitId}.o2PctVol`, v.o2PctVol, v.reason);
-        emit(`o2.${v.unitId}.marginPctPt`, v.marginPctPt, v.reason);
-        return [v.unitId, v] as const;
-      }),
-    );
-    const units: UnitView[] = this.cfg.units.map((u) => ({ id: u.id, name: u.name, kind: u.kind, inerting: inertingByUnit.get(u.id) ?? null }));
-    this.view = { units, dewPoints, coPoints };
+    for (const m of this.monitors) m.tick(ctx);
 
     for (const a of this.advisories) {
       const q = a.rule.quantity;
@@ -182,7 +135,9 @@ export class Engine {
       site: { name: this.cfg.site.name, plant: this.cfg.site.plant },
       nowMs: this.nowMs,
       signals: [...this.signals.values()].map((s) => s.view(this.nowMs)),
-      ...this.view,
+      ...this.oxygen.view(),
+      ...this.dewPoints.view(),
+      ...this.co.view(),
       advisories: this.currentAdvisories(),
     };
   }

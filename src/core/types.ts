@@ -128,82 +128,45 @@ export interface SignalView {
   functionCheck: boolean;
 }
 
-export interface InertingView {
-  unitId: string;
-  state: InertingState;
-  o2Signal: string;
-  /** O2 on the limit's basis. */
-  o2PctVol: number | null;
-  basis: "wet" | "dry";
-  /** The effective limit (lowest of site maximum and LOC with NFPA 69 margin), on `basis`. */
-  limitPctVol: number;
-  /** Which of the two set the limit, with its recorded origin. */
-  limitSource: string;
-  /** limit − O2 in percentage points; positive is on the safe side. */
-  marginPctPt: number | null;
-  /** Below this margin the unit is "marginal". */
-  marginalBandPctPt: number;
-  reason: string;
-}
+export type { InertingView, UnitView } from "../analytics/oxygen-monitor.js";
+export type { DewPointView } from "../analytics/dew-point-monitor.js";
+export type { CoPointView } from "../analytics/co-monitor.js";
+import type { UnitView } from "../analytics/oxygen-monitor.js";
+import type { DewPointView, DewPointMonitor } from "../analytics/dew-point-monitor.js";
+import type { CoPointView, CoMonitor } from "../analytics/co-monitor.js";
+import type { OxygenMonitor } from "../analytics/oxygen-monitor.js";
 
-export interface DewPointView {
-  id: string;
-  name: string;
-  unitId: string;
-  gasTempC: number | null;
-  h2oPctVol: number | null;
-  absPressurePa: number | null;
-  dewPointC: number | null;
-  marginK: number | null;
-  status: "ok" | "unknown";
-  reason: string;
-}
-
-export interface CoPointView {
-  id: string;
-  name: string;
-  unitId: string;
-  signal: string;
-  coPpm: number | null;
-  gradientPpmPerMin: number | null;
-  windowS: number;
-  status: "ok" | "unknown";
-  reason: string;
-}
-
-export interface UnitView {
-  id: string;
-  name: string;
-  kind: string;
-  inerting: InertingView | null;
-}
-
-export interface PlantState {
+/**
+ * What GET /api/state returns: the common part, and each monitor's own part (its
+ * view() decides the keys, so a family grows without touching this file).
+ */
+export type PlantState = {
   advisoryOnly: string;
   site: { name: string; plant: string };
   nowMs: number;
   signals: SignalView[];
-  units: UnitView[];
-  dewPoints: DewPointView[];
-  coPoints: CoPointView[];
   /** Active advisories and those returned to normal but not yet acknowledged. */
   advisories: AdvisoryView[];
-}
+} & ReturnType<OxygenMonitor["view"]> &
+  ReturnType<DewPointMonitor["view"]> &
+  ReturnType<CoMonitor["view"]>;
+
+/** The lists in PlantState whose entries carry an id: a delta patches them entry by entry. */
+export type KeyedSection = Exclude<
+  { [K in keyof PlantState]: PlantState[K] extends readonly { id: string }[] ? K : never }[keyof PlantState],
+  "advisories"
+>;
 
 /** Messages on the WebSocket /api/live. Entries in a delta replace those with the same id. */
 export type LiveMessage =
   | { type: "snapshot"; state: PlantState }
-  | {
+  | ({
       type: "delta";
       nowMs: number;
-      signals?: SignalView[];
-      units?: UnitView[];
-      dewPoints?: DewPointView[];
-      coPoints?: CoPointView[];
       /** When present, the complete list of current advisories (it is short). */
       advisories?: AdvisoryView[];
       transitions?: AdvisoryTransition[];
-    };
+    } & { [K in KeyedSection]?: PlantState[K] });
 
 /** The words every screen and message carries. */
 export const ADVISORY_ONLY =

@@ -4,8 +4,7 @@
 import type { AdvisoryTransition, LiveMessage, PlantState } from "../core/types.js";
 
 type Listener = (msg: LiveMessage) => void;
-type Section = "signals" | "units" | "dewPoints" | "coPoints";
-const SECTIONS: Section[] = ["signals", "units", "dewPoints", "coPoints"];
+type Entry = { id: string };
 
 export class ChangeFeed {
   private readonly listeners = new Set<Listener>();
@@ -51,11 +50,12 @@ export class ChangeFeed {
     this.dirty = false;
     const state = this.snapshot();
     const msg: Extract<LiveMessage, { type: "delta" }> = { type: "delta", nowMs: state.nowMs };
-    for (const section of SECTIONS) {
-      const changed = [];
-      for (const entry of state[section]) {
-        const key = `${section}:${(entry as { id: string }).id}`;
-        // Signals carry their age implicitly (stale flag); times alone do not make a change worth sending.
+    // Every list of entries with an id is patched entry by entry; the advisory list goes whole.
+    for (const [section, list] of Object.entries(state)) {
+      if (section === "advisories" || !Array.isArray(list)) continue;
+      const changed: Entry[] = [];
+      for (const entry of list as Entry[]) {
+        const key = `${section}:${entry.id}`;
         const json = JSON.stringify(entry);
         if (this.last.get(key) !== json) {
           this.last.set(key, json);
