@@ -174,6 +174,8 @@ export class AnalyserHealth {
   private flatHistoryFromMs: number | null = null;
   private reported: AnalyserHealthState | null = null;
   private reportedSinceMs: number | null = null;
+  /** The result while all is well, reused: evaluate() runs for every analysed signal at every tick. */
+  private okResult: AnalyserHealthResult = { state: "ok", reasons: [], sinceMs: null };
 
   constructor(opts: AnalyserHealthOptions) {
     const fn = "AnalyserHealth";
@@ -247,6 +249,25 @@ export class AnalyserHealth {
 
     const ageMs = nowMs - s.receiveTimeMs;
     const stale = ageMs > this.staleAfterMs;
+    const frozen = this.frozenSpan(nowMs);
+    // Fast path, no allocation: fresh, good, in range, no loop trouble, not in check, not frozen.
+    const r = this.opts.range;
+    if (
+      !stale &&
+      s.quality === "good" &&
+      Number.isFinite(s.value) &&
+      s.functionCheck !== true &&
+      !(this.opts.loopMa && s.loopCurrentMa !== undefined && loopBand(s.loopCurrentMa) !== "ok") &&
+      !(r && (s.value < r[0] || s.value > r[1])) &&
+      !(plantRunning && frozen !== null)
+    ) {
+      if (this.reported !== "ok") {
+        this.reported = "ok";
+        this.reportedSinceMs = nowMs;
+        this.okResult = { state: "ok", reasons: [], sinceMs: nowMs };
+      }
+      return this.okResult;
+    }
     const of = stale ? "last sample: " : "";
     if (stale) {
       add(
@@ -266,13 +287,11 @@ export class AnalyserHealth {
     if (s.quality === "bad") add("bad", `${of}quality bad${s.qualityReason ? ` (${s.qualityReason})` : ""}`);
     else if (!Number.isFinite(s.value)) add("bad", `${of}value is not a finite number (${s.value})`);
     if (s.functionCheck) add("function-check", `${of}analyser in function check (NAMUR NE 107 category C: calibration, blowback or multiplexer switching)`);
-    const r = this.opts.range;
     if (r && Number.isFinite(s.value) && (s.value < r[0] || s.value > r[1])) {
       add("out-of-range", `${of}value ${fmt(s.value)} outside the valid range ${r[0]}..${r[1]}`);
     }
     if (s.quality === "uncertain") add("uncertain", `${of}quality uncertain${s.qualityReason ? ` (${s.qualityReason})` : ""}`);
 
-    const frozen = this.frozenSpan(nowMs);
     if (plantRunning && frozen !== null) {
       add(
         "frozen",

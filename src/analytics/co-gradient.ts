@@ -1,52 +1,213 @@
-// CO rate of rise at one measuring point: least squares over a rolling window of
-// source time. No gradient is computed across a gap, a bad value or a function
-// check (calibration, blowback, multiplexer switch): the window starts again.
+// CO rate of rise at one measuring point, over a short and a long rolling window of
+// source time, each with two estimators on the same points:
+//   least squares (RollingLinearFit, O(1) per sample): the textbook slope, follows a spike;
+//   Theil–Sen (RollingRobustSlope): the median of pairwise slopes (Sen 1968), ignores spikes.
+// The robust slope is the one rules watch by default, so a single spike raises nothing.
+//
+// No gradient is computed across a gap, a bad or uncertain value, or a function check
+// (calibration, blowback, multiplexer switch): the windows start again and say why.
+// After a function check the next transportLagS seconds of samples are still check gas
+// travelling down the sample line, so they are skipped too.
+//
+// Memory: each window is decimated to slots of windowS / maxPointsPerWindow seconds (the
+// first sample of a slot is kept), so it holds at most maxPointsPerWindow + 1 points
+// whatever the sample rate and however long the run.
 import type { CoPointConfig } from "../config/schema.js";
 import type { Sample } from "../core/types.js";
+import { SampleHistory } from "./co-history.js";
 import { RollingLinearFit } from "./rolling-fit.js";
+import { RollingRobustSlope } from "./robust-slope.js";
 
-export interface GradientResult {
-  gradientPpmPerMin: number | null;
+export interface WindowResult {
+  windowS: number;
+  /** Theil–Sen slope, ppm/min. */
+  robustPpmPerMin: number | null;
+  /** Source time (epoch ms) of the newest point the Theil–Sen slope was computed with. */
+  robustAsOfMs: number | null;
+  /** Least-squares slope, ppm/min. */
+  lsPpmPerMin: number | null;
+  /** Points held in the window (after decimation). */
+  points: number;
+  spanS: number;
   status: "ok" | "unknown";
   reason: string;
 }
 
+/** Buckets of the Theil–Sen estimator (RollingRobustSlope's default, whose guarantees are proved for it). */
+const ROBUST_BUCKETS = 60;
+
+/** Both estimators over one rolling window, fed the same decimated points. */
+export class SlopeWindow {
+  private readonly ls: RollingLinearFit;
+  private readonly robust: RollingRobustSlope;
+  private readonly slotS: number;
+  private lastSlot: number | null = null;
+  private newestS: number | null = null;
+  private clears = 0;
+  // Theil–Sen costs a sort of m(m−1)/2 pairwise slopes per computation, least squares O(1).
+  // The robust slope is recomputed once the window has moved on by one bucket width
+  // (windowS / ROBUST_BUCKETS: 5 s for a 5 min window), at once after a restart: between
+  // refreshes the bucket representatives barely move, and the estimate lags by half a
+  // window anyway. robustAsOfMs tells how old it is.
+  private readonly refreshS: number;
+  private robustCache: { clears: number; atS: number; slope: number | null } | null = null;
+
+  constructor(
+    readonly windowS: number,
+    maxPoints: number,
+  ) {
+    this.slotS = windowS / maxPoints;
+    this.refreshS = windowS / ROBUST_BUCKETS;
+    this.ls = new RollingLinearFit(windowS);
+    this.robust = new RollingRobustSlope(windowS, ROBUST_BUCKETS);
+  }
+
+  get count(): number {
+    return this.robust.count;
+  }
+
+  get spanS(): number {
+    return this.robust.spanS;
+  }
+
+  /** tS strictly increasing (the caller guarantees it). */
+  push(tS: number, v: number): void {
+    const slot = Math.floor(tS / this.slotS);
+    if (this.lastSlot !== null && slot <= this.lastSlot) return;
+    this.lastSlot = slot;
+    this.newestS = tS;
+    this.ls.push(tS, v);
+    this.robust.push(tS, v);
+  }
+
+  clear(): void {
+    this.ls.clear();
+    this.robust.clear();
+    this.lastSlot = null;
+    this.newestS = null;
+    this.clears++;
+  }
+
+  private robustSlope(): { slope: number | null; atS: number } {
+    const newest = this.newestS!;
+    const c = this.robustCache;
+    if (c === null || c.clears !== this.clears || newest - c.atS >= this.refreshS) {
+      this.robustCache = { clears: this.clears, atS: newest, slope: this.robust.slopePerS() };
+    }
+    return this.robustCache!;
+  }
+
+  evaluate(minPoints: number, since: string): WindowResult {
+    const base = { windowS: this.windowS, points: this.count, spanS: this.spanS, robustAsOfMs: null };
+    const needSpanS = this.windowS / 2;
+    if (this.count < minPoints || this.spanS < needSpanS) {
+      const reason = `window filling after ${since} (${this.count} points over ${Math.round(this.spanS)} s; needs ${minPoints} over ${needSpanS} s)`;
+      return { ...base, robustPpmPerMin: null, lsPpmPerMin: null, status: "unknown", reason };
+    }
+    const { slope: robust, atS } = this.robustSlope();
+    const ls = this.ls.slopePerS();
+    if (robust === null || ls === null) return { ...base, robustPpmPerMin: null, lsPpmPerMin: null, status: "unknown", reason: "no spread in time" };
+    return {
+      ...base,
+      robustAsOfMs: Math.round(atS * 1000),
+      robustPpmPerMin: robust * 60,
+      lsPpmPerMin: ls * 60,
+      status: "ok",
+      reason: `Theil–Sen over ${this.windowS} s, ${this.count} points`,
+    };
+  }
+}
+
+export interface Interruption {
+  /** Source time (epoch ms) of the sample or tick that restarted the windows; null before any data. */
+  atMs: number | null;
+  reason: string;
+}
+
 export class CoGradient {
-  private readonly fit: RollingLinearFit;
-  private restartReason = "no data yet";
+  readonly short: SlopeWindow;
+  readonly long: SlopeWindow;
+  /** Values kept for a rise across a unit that uses this point as its inlet; null when none does. */
+  history: SampleHistory | null = null;
+  /** Latest sample that entered the windows (good, not in or just after a function check). */
+  latest: { tS: number; v: number } | null = null;
+  interruption: Interruption = { atMs: null, reason: "no data yet" };
+  accepted = 0;
+  duplicates = 0;
+  outOfOrder = 0;
+  /** Source time of the newest sample of any quality, s: gaps and ordering are judged on it. */
+  private lastRawS: number | null = null;
+  private settleUntilS: number | null = null;
 
   constructor(readonly cfg: CoPointConfig) {
-    this.fit = new RollingLinearFit(cfg.windowS);
+    this.short = new SlopeWindow(cfg.shortWindowS, cfg.maxPointsPerWindow);
+    this.long = new SlopeWindow(cfg.longWindowS, cfg.maxPointsPerWindow);
   }
 
-  /** Feed one sample of the point's CO signal (already ordered by source time). */
+  /** Keep inlet values for `horizonS` (the longest transport delay asked of this point plus its tolerance). */
+  keepHistory(horizonS: number): void {
+    const need = horizonS + this.cfg.maxGapS;
+    if (!this.history || this.history.horizonS < need) this.history = new SampleHistory(need, 20_000);
+  }
+
+  /** Feed one sample of the point's CO signal. */
   add(s: Sample): void {
-    if (s.quality === "bad" || !Number.isFinite(s.value)) return this.restart(`bad value (${s.qualityReason ?? "bad"})`);
-    if (s.functionCheck) return this.restart("analyser in function check");
     const tS = s.sourceTimeMs / 1000;
-    const newest = this.fit.newestS;
-    if (newest !== null && tS - newest > this.cfg.maxGapS) this.restart(`gap of ${Math.round(tS - newest)} s in the data`);
-    this.fit.push(tS, s.value);
-  }
-
-  private restart(reason: string): void {
-    this.fit.clear();
-    this.restartReason = reason;
-  }
-
-  /** The gradient as it stands; `trusted` is false when the signal is stale or bad now. */
-  evaluate(trusted: boolean, whyNot: string): GradientResult {
-    if (!trusted) return { gradientPpmPerMin: null, status: "unknown", reason: whyNot };
-    const needSpanS = this.cfg.windowS * 0.5;
-    if (this.fit.count < this.cfg.minPoints || this.fit.spanS < needSpanS) {
-      return {
-        gradientPpmPerMin: null,
-        status: "unknown",
-        reason: `window filling after ${this.restartReason} (${this.fit.count} points over ${Math.round(this.fit.spanS)} s; needs ${this.cfg.minPoints} over ${needSpanS} s)`,
-      };
+    if (this.lastRawS !== null && tS <= this.lastRawS) {
+      // The engine drops these already; counted here so a direct feed cannot corrupt a window.
+      if (tS === this.lastRawS) this.duplicates++;
+      else this.outOfOrder++;
+      return;
     }
-    const slope = this.fit.slopePerS();
-    if (slope === null) return { gradientPpmPerMin: null, status: "unknown", reason: "no spread in time" };
-    return { gradientPpmPerMin: slope * 60, status: "ok", reason: `least squares over ${this.cfg.windowS} s, ${this.fit.count} points` };
+    const gapS = this.lastRawS === null ? 0 : tS - this.lastRawS;
+    this.lastRawS = tS;
+    this.accepted++;
+    const bad =
+      s.quality === "bad" || !Number.isFinite(s.value)
+        ? `bad value (${s.qualityReason ?? "bad"})`
+        : s.quality === "uncertain"
+          ? `uncertain value (${s.qualityReason ?? "uncertain"})`
+          : s.functionCheck
+            ? "analyser in function check"
+            : this.settleUntilS !== null && tS < this.settleUntilS
+              ? `settling after a function check (the sample line holds check gas for the ${this.cfg.transportLagS} s transport lag)`
+              : null;
+    if (s.functionCheck) this.settleUntilS = tS + this.cfg.transportLagS;
+    if (bad !== null) {
+      this.history?.markBreak(tS);
+      return this.restart(s.sourceTimeMs, bad);
+    }
+    this.settleUntilS = null;
+    if (gapS > this.cfg.maxGapS) this.restart(s.sourceTimeMs, `gap of ${Math.round(gapS)} s in the data`);
+    this.short.push(tS, s.value);
+    this.long.push(tS, s.value);
+    this.history?.push(tS, s.value);
+    this.latest = { tS, v: s.value };
+  }
+
+  /**
+   * The signal cannot be trusted at a tick (stale, out of range, analyser fault): start again.
+   * Windows already emptied by a sample keep that sample's more precise reason. The inlet
+   * history is left alone: its interpolation never bridges a gap longer than maxGapS.
+   */
+  interrupt(nowMs: number, reason: string): void {
+    if (this.short.count === 0 && this.long.count === 0 && this.latest === null) return;
+    this.restart(nowMs, reason);
+  }
+
+  private restart(atMs: number, reason: string): void {
+    this.short.clear();
+    this.long.clear();
+    this.latest = null;
+    this.interruption = { atMs, reason };
+  }
+
+  /** Both windows as they stand; `trusted` is false when the signal is stale or bad now. */
+  evaluate(trusted: boolean, whyNot: string): { short: WindowResult; long: WindowResult } {
+    const one = (w: SlopeWindow): WindowResult =>
+      trusted
+        ? w.evaluate(this.cfg.minPoints, this.interruption.reason)
+        : { windowS: w.windowS, robustPpmPerMin: null, robustAsOfMs: null, lsPpmPerMin: null, points: w.count, spanS: w.spanS, status: "unknown", reason: whyNot };
+    return { short: one(this.short), long: one(this.long) };
   }
 }

@@ -9,6 +9,8 @@ import type { CheckContext, Path } from "./sections/context.js";
 import { checkOxygen } from "./sections/oxygen.js";
 import { checkDewPoints } from "./sections/dew-point.js";
 import { checkCo } from "./sections/co.js";
+import { checkPhase } from "./sections/phase.js";
+import { checkAnalysers } from "./sections/analysers.js";
 
 export interface ConfigProblem {
   file: string;
@@ -145,7 +147,9 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
 
   cfg.signals.forEach((s, i) => {
     if (!sources.has(s.source)) out.push(loc.at(["signals", i, "source"], `unknown source "${s.source}": expected one of ${[...sources.keys()].join(", ")}`));
-    if (!s.topic) out.push(loc.at(["signals", i], `signal "${s.id}" from an MQTT source needs a topic`));
+    const kind = cfg.sources.find((x) => x.id === s.source)?.kind;
+    if (kind === "mqtt" && !s.topic) out.push(loc.at(["signals", i], `signal "${s.id}" from an MQTT source needs a topic`));
+    if (kind === "opcua" && !s.nodeId) out.push(loc.at(["signals", i], `signal "${s.id}" from an OPC UA source needs a nodeId (e.g. ns=1;s=${s.tag})`));
     if (s.range && !(s.range[0] < s.range[1])) out.push(loc.at(["signals", i, "range"], `expected [low, high] with low < high; found [${s.range.join(", ")}]`));
   });
   if (cfg.site.barometricSignal) needSignal(["site", "barometricSignal"], cfg.site.barometricSignal, "pressure", "a pressure unit (Pa, hPa, mbar, kPa, bar)");
@@ -154,6 +158,8 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   checkOxygen(cfg, ctx);
   checkDewPoints(cfg, ctx);
   checkCo(cfg, ctx);
+  checkPhase(cfg, ctx);
+  checkAnalysers(cfg, ctx);
 
   const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
   cfg.rules.forEach((r, i) => {

@@ -9,6 +9,8 @@ import { id, positive, text } from "./sections/common.js";
 import { dewPointSection } from "./sections/dew-point.js";
 import { coSection } from "./sections/co.js";
 import { oxygenSchema } from "./sections/oxygen.js";
+import { phaseSchema } from "./sections/phase.js";
+import { analysersSection } from "./sections/analysers.js";
 
 const mqttSource = z.strictObject({
   id,
@@ -33,6 +35,41 @@ const mqttSource = z.strictObject({
   maxClockSkewS: positive.default(30),
 });
 
+/**
+ * An OPC UA server, read only: millwarden subscribes and reads, it never writes or calls
+ * methods. The application instance certificate is created in pkiFolder on first run;
+ * server certificates are trusted explicitly (`millwarden pki list|trust`).
+ */
+const opcuaSource = z
+  .strictObject({
+    id,
+    kind: z.literal("opcua"),
+    endpointUrl: z.string().regex(/^opc\.tcp:\/\/[^\s/]+/, "expected an opc.tcp://host:port URL"),
+    securityMode: z.enum(["None", "Sign", "SignAndEncrypt"]).default("SignAndEncrypt"),
+    securityPolicy: z.enum(["None", "Basic256Sha256", "Aes128_Sha256_RsaOaep", "Aes256_Sha256_RsaPss"]).default("Basic256Sha256"),
+    /** Anonymous when absent. */
+    username: z.string().min(1).optional(),
+    /** Read from this environment variable, never written in the file. */
+    passwordEnv: z.string().min(1).optional(),
+    /** Own certificate and key, trusted/ and rejected/ server certificates. */
+    pkiFolder: z.string().min(1).default("data/pki"),
+    /** Accept any server certificate: for a first look on a bench only, never on a plant. */
+    trustUnknownServerCertificates: z.boolean().default(false),
+    publishingIntervalMs: positive.default(1000),
+    /** Default for signals without their own samplingIntervalMs. */
+    samplingIntervalMs: z.number().nonnegative().default(1000),
+    /** A source time further ahead of the box's clock than this is rejected. */
+    maxClockSkewS: positive.default(30),
+  })
+  .refine((s) => (s.securityMode === "None") === (s.securityPolicy === "None"), {
+    message: "securityMode None goes with securityPolicy None, and Sign or SignAndEncrypt with one of Basic256Sha256, Aes128_Sha256_RsaOaep, Aes256_Sha256_RsaPss",
+    path: ["securityPolicy"],
+  })
+  .refine((s) => (s.username === undefined) === (s.passwordEnv === undefined), {
+    message: "username and passwordEnv go together (both for user name login, neither for anonymous)",
+    path: ["passwordEnv"],
+  });
+
 const signal = z.strictObject({
   id,
   name: text,
@@ -40,6 +77,17 @@ const signal = z.strictObject({
   tag: text,
   source: id,
   topic: z.string().min(1).optional(),
+  /** OPC UA node id (signals of an opcua source), e.g. "ns=1;s=VM2-TT-111" or "nsu=urn:...;s=...". */
+  nodeId: z
+    .string()
+    .regex(/^(ns=\d+;|nsu=[^;]+;)?[isgb]=.+$/, "expected an OPC UA node id such as ns=1;s=VM2-TT-111, ns=2;i=1001 or nsu=urn:site:plant;s=TT-1")
+    .optional(),
+  /**
+   * OPC UA sampling interval and server queue size. No deadband is ever requested: a
+   * deadband can hide a slow CO rise, each step below it being dropped at the server.
+   */
+  samplingIntervalMs: z.number().nonnegative().optional(),
+  queueSize: z.number().int().min(1).max(1000).optional(),
   /** JSON path of the value inside the payload; overrides the source's default. */
   valuePath: z.string().min(1).optional(),
   unit: z.enum(UNIT_NAMES as [string, ...string[]]),
@@ -50,7 +98,8 @@ const signal = z.strictObject({
   expectedPeriodS: positive,
   /** For O2 signals: what the analyser reads (in-situ probes read wet, extractive with a cooler dry). */
   basis: z.enum(["wet", "dry"]).optional(),
-  analyser: z.string().min(1).optional(),
+  /** Id of the analyser it comes from, declared under analysers: (its health decides trust). */
+  analyser: id.optional(),
 });
 
 const unit = z.strictObject({
@@ -58,6 +107,7 @@ const unit = z.strictObject({
   name: text,
   kind: z.enum(["hot-gas-generator", "mill", "classifier", "bag-filter", "dust-hopper", "silo", "duct"]),
   oxygen: oxygenSchema.optional(),
+  phase: phaseSchema.optional(),
 });
 
 const tierThresholds = z
@@ -100,17 +150,23 @@ export const configSchema = z.strictObject({
   server: z
     .strictObject({ host: z.string().min(1).default("127.0.0.1"), port: z.number().int().min(0).max(65535).default(8480) })
     .default({ host: "127.0.0.1", port: 8480 }),
-  sources: z.array(mqttSource).min(1),
+  sources: z.array(z.discriminatedUnion("kind", [mqttSource, opcuaSource])).min(1),
   signals: z.array(signal).min(1),
   units: z.array(unit).min(1),
   ...dewPointSection,
   ...coSection,
+  ...analysersSection,
   rules: z.array(rule).default([]),
 });
 
 export type MillwardenConfig = z.infer<typeof configSchema>;
 export type SignalConfig = MillwardenConfig["signals"][number];
-export type SourceConfig = MillwardenConfig["sources"][number];
+/** Any source, by kind. */
+export type AnySourceConfig = MillwardenConfig["sources"][number];
+/** The MQTT source's config (the name decode.ts and mqtt.ts were written against). */
+export type SourceConfig = Extract<AnySourceConfig, { kind: "mqtt" }>;
+export type MqttSourceConfig = SourceConfig;
+export type OpcUaSourceConfig = Extract<AnySourceConfig, { kind: "opcua" }>;
 export type UnitConfig = MillwardenConfig["units"][number];
 export type { DewPointConfig } from "./sections/dew-point.js";
 export type { CoPointConfig } from "./sections/co.js";

@@ -1,8 +1,9 @@
 // The computing core. Pure and deterministic: the same samples, commands and ticks
 // give the same events, live or in replay.
 //
-//   Sample ──▶ signal state (latest, quality, staleness) ──▶ CO windows
-//   Tick(now) ──▶ dew points, CO gradients, inerting state ──▶ rules ──▶ advisory transitions
+//   Sample ──▶ signal state (latest, quality, staleness) ──▶ analyser health, CO windows
+//   Tick(now) ──▶ phase (signals' own trust) ──▶ analyser health (needs the phase)
+//             ──▶ dew points, CO gradients, inerting state (full trust) ──▶ rules ──▶ advisory transitions
 //   Command ──▶ advisory lifecycle (acknowledge)
 //
 // Samples only update state; everything derived is computed at a tick, once a second
@@ -12,6 +13,8 @@ import { SignalState, type Trust } from "../analytics/signal-state.js";
 import { DewPointMonitor } from "../analytics/dew-point-monitor.js";
 import { CoMonitor } from "../analytics/co-monitor.js";
 import { OxygenMonitor } from "../analytics/oxygen-monitor.js";
+import { PhaseMonitor } from "../analytics/phase-monitor.js";
+import { HealthMonitor } from "../analytics/health-monitor.js";
 import { Advisory } from "../advisories/advisory.js";
 import type { Monitor, TickContext } from "./calculator.js";
 import { derivedQuantities, type QuantityInfo } from "./quantities.js";
@@ -38,7 +41,14 @@ export class Engine {
   private readonly dewPoints: DewPointMonitor;
   private readonly co: CoMonitor;
   private readonly oxygen: OxygenMonitor;
-  /** Run in this order at every tick: later monitors may read what earlier ones emitted. */
+  private readonly phases: PhaseMonitor;
+  private readonly health: HealthMonitor;
+  /**
+   * Run in this order at every tick: later monitors may read what earlier ones emitted.
+   * The phase monitor comes first and sees the signals' own trust; the health monitor next
+   * (its frozen test needs the phase); every monitor after it sees full trust, in which a
+   * signal whose analyser is not healthy is untrusted.
+   */
   private readonly monitors: Monitor[];
   private readonly advisories: Advisory[] = [];
   private readonly advisoryById = new Map<string, Advisory>();
@@ -48,10 +58,12 @@ export class Engine {
 
   constructor(readonly cfg: MillwardenConfig) {
     for (const s of cfg.signals) this.signals.set(s.id, new SignalState(s));
-    this.dewPoints = new DewPointMonitor(cfg.dewPoints, { signal: cfg.site.barometricSignal, fallbackPa: cfg.site.barometricPressureHPa * 100 });
-    this.co = new CoMonitor(cfg.coPoints);
+    this.dewPoints = new DewPointMonitor(cfg, { signal: cfg.site.barometricSignal, fallbackPa: cfg.site.barometricPressureHPa * 100 });
+    this.co = new CoMonitor(cfg.coPoints, cfg.coRises);
     this.oxygen = new OxygenMonitor(cfg.units, cfg.signals);
-    this.monitors = [this.dewPoints, this.co, this.oxygen];
+    this.phases = new PhaseMonitor(cfg.units);
+    this.health = new HealthMonitor(cfg.analysers, cfg.signals);
+    this.monitors = [this.phases, this.health, this.dewPoints, this.co, this.oxygen];
     this.quantities = derivedQuantities(cfg);
     const info = new Map<string, { unit: string; label: string }>(this.quantities.map((q) => [q.key, q]));
     for (const s of this.signals.values()) info.set(s.cfg.id, { unit: s.unitSymbol, label: s.cfg.name });
@@ -77,18 +89,28 @@ export class Engine {
     return "accepted";
   }
 
-  private trust(id: string, nowMs: number): Trust {
+  /** The signal's own trust: fresh, good quality, not in function check. */
+  private rawTrust(id: string, nowMs: number): Trust {
     return this.signals.get(id)!.trust(nowMs);
+  }
+
+  /** Full trust: the signal's own, and its analyser healthy as of this tick's health evaluation. */
+  private trust(id: string, nowMs: number): Trust {
+    const own = this.rawTrust(id, nowMs);
+    if (!own.ok) return own;
+    const why = this.health.distrust(id);
+    return why === null ? own : { ok: false, value: null, reason: why };
   }
 
   /** Compute every derived value at `nowMs`, then evaluate the rules. */
   tick(nowMs: number): CoreEvent[] {
     this.nowMs = nowMs;
     const out: CoreEvent[] = [];
+    let fullTrust = false;
     const ctx: TickContext = {
       nowMs,
-      trust: (id) => this.trust(id, nowMs),
-      phase: () => null,
+      trust: (id) => (fullTrust ? this.trust(id, nowMs) : this.rawTrust(id, nowMs)),
+      phase: (unitId) => this.phases.phaseOf(unitId),
       emit: (key, value, reason) => {
         this.derived.set(key, value);
         const d: DerivedValue = { kind: "derived", key, atMs: nowMs, value, status: value === null ? "unknown" : "ok" };
@@ -97,7 +119,10 @@ export class Engine {
       },
       derived: (key) => this.derived.get(key),
     };
-    for (const m of this.monitors) m.tick(ctx);
+    for (const m of this.monitors) {
+      m.tick(ctx);
+      if (m === this.health) fullTrust = true;
+    }
 
     for (const a of this.advisories) {
       const q = a.rule.quantity;
@@ -135,6 +160,8 @@ export class Engine {
       site: { name: this.cfg.site.name, plant: this.cfg.site.plant },
       nowMs: this.nowMs,
       signals: [...this.signals.values()].map((s) => s.view(this.nowMs)),
+      ...this.phases.view(),
+      ...this.health.view(),
       ...this.oxygen.view(),
       ...this.dewPoints.view(),
       ...this.co.view(),

@@ -9,6 +9,6 @@ import { oxygenQuantities } from "../config/sections/oxygen.js";
 
 export type { QuantityInfo };
 
-export function derivedQuantities(cfg: Pick<MillwardenConfig, "units" | "dewPoints" | "coPoints">): QuantityInfo[] {
+export function derivedQuantities(cfg: Pick<MillwardenConfig, "units" | "dewPoints" | "coPoints" | "coRises" | "moistureSources" | "acidDewPoints">): QuantityInfo[] {
   return [...dewPointQuantities(cfg), ...coQuantities(cfg), ...oxygenQuantities(cfg)];
 }

@@ -37,8 +37,11 @@ export const tierRank = (t: Tier): number => TIERS.indexOf(t);
  */
 export type AdvisoryState = "normal" | "unack" | "ack" | "rtn-unack";
 
-/** Inerting state per unit, our own names. "unknown" whenever the data behind it cannot be trusted. */
-export type InertingState = "inert" | "marginal" | "not-inert" | "unknown";
+/**
+ * Inerting state per unit, our own names. "unknown" whenever the data behind it cannot be trusted;
+ * "purging" while inert gas is purging the unit and its measured O2 is not yet inert.
+ */
+export type InertingState = "inert" | "marginal" | "not-inert" | "purging" | "unknown";
 
 /** Commands from people, always with who, when and why. */
 export type Command = {
@@ -102,7 +105,10 @@ export interface DerivedValue {
   kind: "derived";
   key: string;
   atMs: number;
-  /** null when it cannot be computed (status says why). */
+  /**
+   * null when it cannot be computed (status says why); +Infinity for a time-to-limit whose
+   * trend is known but not approaching (stored as NULL, shown as "not approaching").
+   */
   value: number | null;
   status: "ok" | "unknown";
   reason?: string;
@@ -135,6 +141,10 @@ import type { UnitView } from "../analytics/oxygen-monitor.js";
 import type { DewPointView, DewPointMonitor } from "../analytics/dew-point-monitor.js";
 import type { CoPointView, CoMonitor } from "../analytics/co-monitor.js";
 import type { OxygenMonitor } from "../analytics/oxygen-monitor.js";
+export type { PhaseView } from "../analytics/phase-monitor.js";
+export type { AnalyserView, AnalyserSignalView } from "../analytics/health-monitor.js";
+import type { PhaseMonitor } from "../analytics/phase-monitor.js";
+import type { HealthMonitor } from "../analytics/health-monitor.js";
 
 /**
  * What GET /api/state returns: the common part, and each monitor's own part (its
@@ -149,7 +159,9 @@ export type PlantState = {
   advisories: AdvisoryView[];
 } & ReturnType<OxygenMonitor["view"]> &
   ReturnType<DewPointMonitor["view"]> &
-  ReturnType<CoMonitor["view"]>;
+  ReturnType<CoMonitor["view"]> &
+  ReturnType<PhaseMonitor["view"]> &
+  ReturnType<HealthMonitor["view"]>;
 
 /** The lists in PlantState whose entries carry an id: a delta patches them entry by entry. */
 export type KeyedSection = Exclude<

@@ -38,7 +38,7 @@ export class Daemon {
   readonly engine: Engine;
   readonly historian: Historian;
   readonly feed: ChangeFeed;
-  readonly sources: Source[];
+  sources: Source[] = [];
   url: string | null = null;
   private server: { close(): Promise<void> } | null = null;
   private timer: NodeJS.Timeout | null = null;
@@ -56,10 +56,17 @@ export class Daemon {
     this.historian = Historian.open({ path: resolve(opts.baseDir ?? process.cwd(), cfg.storage.path), synchronous: cfg.storage.synchronous });
     this.feed = new ChangeFeed(() => this.engine.snapshot());
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
-    this.sources = cfg.sources.map((s) => {
+  }
+
+  /** Build the sources; node-opcua is loaded only when an OPC UA source is configured (it is large). */
+  private async makeSources(): Promise<Source[]> {
+    const cfg = this.opts.config;
+    const deps = { now: this.now, log: (level: "info" | "warn" | "error", msg: string) => this.opts.log[level](msg), baseDir: this.opts.baseDir };
+    const opcua = cfg.sources.some((s) => s.kind === "opcua") ? await import("../sources/opcua.js") : null;
+    return cfg.sources.map((s) => {
       // On the data clock the box's own clock says nothing about the data's time.
       const src = this.dataClock ? { ...s, maxClockSkewS: Number.POSITIVE_INFINITY } : s;
-      return new MqttSource(src, cfg.signals, { now: this.now, log: (level, msg) => opts.log[level](msg) });
+      return src.kind === "mqtt" ? new MqttSource(src, cfg.signals, deps) : new opcua!.OpcUaSource(src, cfg.signals, deps);
     });
   }
 
@@ -71,6 +78,7 @@ export class Daemon {
 
   private async begin(): Promise<void> {
     const { config: cfg, log } = this.opts;
+    this.sources = await this.makeSources();
     this.historian.start();
     this.feed.start();
     if (!this.dataClock) {

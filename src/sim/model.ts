@@ -110,7 +110,7 @@ const CP_COAL_KJ_PER_KGK = 1.3;
 const GRINDING_HEAT_SHARE = 0.75;
 
 /** Gas-filled loop volume (mill, ducts, filter, hot-gas generator) in Nm³ at operating density. */
-const LOOP_VOLUME_NM3 = 1_000;
+export const LOOP_VOLUME_NM3 = 1_000;
 /** False air at the grinding filter outlet suction, Nm³/h; it scales with the suction. */
 const FALSE_AIR_GRINDING_NM3_PER_H = 13_400;
 const FILTER_OUTLET_GRINDING_MBAR = -35;
@@ -130,6 +130,14 @@ const N2_TAU_S = 60;
 /** Purge with extra N2 while the loop O2 is this far above the set point; stop when this close. */
 const N2_PURGE_ON_BAND_PCT = 1.5;
 const N2_PURGE_OFF_BAND_PCT = 0.5;
+/**
+ * With the fans stopped nothing circulates the loop gas: this share of a manual N2 purge
+ * short-circuits from the injection point to the vent without mixing (dead zones, the
+ * shortest path), so the O2 falls more slowly than a well-mixed vessel would predict.
+ * Design choice of this plant; common practice expects real purges to need more volume
+ * changes than the well-mixed figure [CP].
+ */
+export const PURGE_SHORT_CIRCUIT_SHARE = 0.35;
 
 /** Drive power at no load and the grinding share at nominal feed, kW. */
 const DRIVE_IDLE_KW = 320;
@@ -153,6 +161,21 @@ export interface PlantCommands {
   filterCoExtraPpm: number;
   /** Scenario: extra heating of the filter outlet gas from the nest, K. */
   filterExtraK: number;
+  /** Raw coal moisture, mass fraction (wet basis); the product leaves at PRODUCT_COAL_MOISTURE. */
+  rawCoalMoisture: number;
+  /**
+   * Scenario: fresh air through a damper stuck open, Nm³/h. It is not measured, so the
+   * inerting controller's feed-forward does not see it (it only sees the O2 rise).
+   */
+  damperAirNm3PerH: number;
+  /**
+   * The protection system has tripped the mill: drive and feeder stop at once, the burner
+   * goes out, the coal on the table, in the classifier and the hoppers stays inside. The fan
+   * is not part of the trip: while `fansOn` it keeps its grinding speed.
+   */
+  trip: boolean;
+  /** Operators' manual N2 flow, Nm³/h, overriding the inerting controller; null: controller in charge. */
+  n2ManualNm3PerH: number | null;
 }
 
 export const STANDSTILL_COMMANDS: PlantCommands = {
@@ -165,6 +188,10 @@ export const STANDSTILL_COMMANDS: PlantCommands = {
   n2PurgeNm3PerH: 0,
   filterCoExtraPpm: 0,
   filterExtraK: 0,
+  rawCoalMoisture: RAW_COAL_MOISTURE,
+  damperAirNm3PerH: 0,
+  trip: false,
+  n2ManualNm3PerH: null,
 };
 
 export const GRINDING_COMMANDS: PlantCommands = {
@@ -177,6 +204,10 @@ export const GRINDING_COMMANDS: PlantCommands = {
   n2PurgeNm3PerH: 3_000,
   filterCoExtraPpm: 0,
   filterExtraK: 0,
+  rawCoalMoisture: RAW_COAL_MOISTURE,
+  damperAirNm3PerH: 0,
+  trip: false,
+  n2ManualNm3PerH: null,
 };
 
 /** Per tag: description, unit, sensor lag, noise (1 sigma), display decimals, lower clamp. */
@@ -255,6 +286,8 @@ export class PlantModel {
   /** Scenario extras as applied in the last step. */
   filterCoExtraPpm = 0;
   filterExtraK = 0;
+  damperAirNm3PerH = 0;
+  rawCoalMoisture = RAW_COAL_MOISTURE;
   /** Sensor readings (lagged true values), keyed by tag. */
   readonly sensors = new Map<string, number>();
 
@@ -280,7 +313,7 @@ export class PlantModel {
   }
 
   /** Fresh flows entering the loop for the present state, Nm³/h. */
-  freshFlows(): { flue: number; falseAir: number; n2: number; steam: number } {
+  freshFlows(): { flue: number; falseAir: number; n2: number; steam: number; damperAir: number } {
     const fuelNm3PerH = ((this.firingKw / HGG_EFFICIENCY) * 3.6) / FUEL_LHV_MJ_PER_NM3;
     const suctionMbar = Math.max(0, -this.filterOutletMbar);
     return {
@@ -288,6 +321,7 @@ export class PlantModel {
       falseAir: (FALSE_AIR_GRINDING_NM3_PER_H * suctionMbar) / -FILTER_OUTLET_GRINDING_MBAR,
       n2: this.n2Nm3PerH,
       steam: steamNm3PerH(this.evaporationTPerH),
+      damperAir: this.damperAirNm3PerH,
     };
   }
 
@@ -298,17 +332,27 @@ export class PlantModel {
     const driveOn = cmd.driveOn && fansOn;
 
     // Fan, feeder, bed, drive.
-    const flowTarget = !fansOn ? 0 : driveOn ? MILL_FLOW_GRINDING_NM3_PER_H : MILL_FLOW_WARMUP_NM3_PER_H;
+    const flowTarget = !fansOn ? 0 : driveOn || cmd.trip ? MILL_FLOW_GRINDING_NM3_PER_H : MILL_FLOW_WARMUP_NM3_PER_H;
     this.millFlowNm3PerH = lag(this.millFlowNm3PerH, flowTarget, dtS, fansOn ? 30 : 20);
-    this.feedTPerH = lag(this.feedTPerH, driveOn ? Math.max(0, cmd.feedSpTPerH) : 0, dtS, 10);
-    this.bedFrac = lag(this.bedFrac, this.feedTPerH / NOMINAL_FEED_T_PER_H, dtS, 90);
-    this.drivePowerKw = lag(this.drivePowerKw, driveOn ? DRIVE_IDLE_KW + DRIVE_GRINDING_KW * this.bedFrac : 0, dtS, 5);
-    this.evaporationTPerH = lag(this.evaporationTPerH, evaporationTPerH(this.feedTPerH, RAW_COAL_MOISTURE, PRODUCT_COAL_MOISTURE), dtS, 60);
+    if (cmd.trip) {
+      // Tripped: drive and feeder stop at once; the bed stays where it lies (coal left inside).
+      this.feedTPerH = 0;
+      this.drivePowerKw = 0;
+    } else {
+      this.feedTPerH = lag(this.feedTPerH, driveOn ? Math.max(0, cmd.feedSpTPerH) : 0, dtS, 10);
+      this.bedFrac = lag(this.bedFrac, this.feedTPerH / NOMINAL_FEED_T_PER_H, dtS, 90);
+      this.drivePowerKw = lag(this.drivePowerKw, driveOn ? DRIVE_IDLE_KW + DRIVE_GRINDING_KW * this.bedFrac : 0, dtS, 5);
+    }
+    this.rawCoalMoisture = cmd.rawCoalMoisture;
+    this.evaporationTPerH = lag(this.evaporationTPerH, evaporationTPerH(this.feedTPerH, cmd.rawCoalMoisture, PRODUCT_COAL_MOISTURE), dtS, 60);
+    this.damperAirNm3PerH = fansOn ? Math.max(0, cmd.damperAirNm3PerH) : 0; // no suction, no inflow
 
     // Draught: the fan holds about -3 mbar before the mill [CP]; losses scale with flow squared.
     const flowFrac = this.millFlowNm3PerH / MILL_FLOW_GRINDING_NM3_PER_H;
     const millInletMbar = -3 * Math.min(1, this.millFlowNm3PerH / MILL_FLOW_WARMUP_NM3_PER_H);
-    const millOutletTarget = millInletMbar - 7 * flowFrac * flowFrac - 10 * this.bedFrac;
+    // The bed's pressure drop needs gas through it; a bed left after a trip drops it only with flow.
+    const bedDpMbar = cmd.trip ? 10 * this.bedFrac * Math.min(1, flowFrac * flowFrac) : 10 * this.bedFrac;
+    const millOutletTarget = millInletMbar - 7 * flowFrac * flowFrac - bedDpMbar;
     this.millOutletMbar = lag(this.millOutletMbar, millOutletTarget, dtS, 5);
     this.filterOutletMbar = lag(this.filterOutletMbar, millOutletTarget - 15 * flowFrac * flowFrac, dtS, 5);
 
@@ -316,7 +360,7 @@ export class PlantModel {
     const mixBeforeHeat = (): number => {
       if (this.millFlowNm3PerH <= 1) return this.filterOutletC;
       const f = this.freshFlows();
-      const cold = Math.min(this.millFlowNm3PerH, f.flue + f.falseAir + f.n2);
+      const cold = Math.min(this.millFlowNm3PerH, f.flue + f.falseAir + f.n2 + f.damperAir);
       return ((this.millFlowNm3PerH - cold) * this.filterOutletC + cold * AMBIENT_TEMP_C) / this.millFlowNm3PerH;
     };
     // Heat taken from the gas in the mill: evaporation (latent plus superheat of the
@@ -361,17 +405,22 @@ export class PlantModel {
     } else {
       this.n2Purging = false;
     }
+    if (cmd.n2ManualNm3PerH !== null) n2Target = Math.min(N2_MAX_NM3_PER_H, Math.max(0, cmd.n2ManualNm3PerH));
     this.n2Nm3PerH = lag(this.n2Nm3PerH, n2Target, dtS, N2_TAU_S);
 
     // Loop composition: well-mixed volume, exact update for constant inflows.
     this.coalOxidationCoNm3PerH = lag(this.coalOxidationCoNm3PerH, COAL_OXIDATION_CO_NM3_PER_T * this.feedTPerH, dtS, COAL_OXIDATION_TAU_S);
     const f = this.freshFlows();
-    const totalNm3PerH = f.flue + f.falseAir + f.n2 + f.steam;
+    // Air from the stuck damper mixes like false air; a manual purge with the fans stopped
+    // partly short-circuits to the vent (PURGE_SHORT_CIRCUIT_SHARE).
+    const air = f.damperAir > 0 ? f.falseAir + f.damperAir : f.falseAir;
+    const n2Mixed = !fansOn && cmd.n2ManualNm3PerH !== null ? f.n2 * (1 - PURGE_SHORT_CIRCUIT_SHARE) : f.n2;
+    const totalNm3PerH = f.flue + air + n2Mixed + f.steam;
     if (totalNm3PerH > 1e-6) {
       const tauS = (LOOP_VOLUME_NM3 * 3600) / totalNm3PerH;
-      const o2Eq = (f.flue * FLUE_O2_FRAC + f.falseAir * AIR_O2_FRAC_WET) / totalNm3PerH;
-      const h2oEq = (f.flue * FLUE_H2O_FRAC + f.falseAir * AMBIENT_H2O_FRAC + f.steam) / totalNm3PerH;
-      const coEq = (f.flue * FLUE_CO_PPM + f.falseAir * FALSE_AIR_CO_PPM + this.coalOxidationCoNm3PerH * 1e6) / totalNm3PerH;
+      const o2Eq = (f.flue * FLUE_O2_FRAC + air * AIR_O2_FRAC_WET) / totalNm3PerH;
+      const h2oEq = (f.flue * FLUE_H2O_FRAC + air * AMBIENT_H2O_FRAC + f.steam) / totalNm3PerH;
+      const coEq = (f.flue * FLUE_CO_PPM + air * FALSE_AIR_CO_PPM + this.coalOxidationCoNm3PerH * 1e6) / totalNm3PerH;
       this.o2Frac = lag(this.o2Frac, o2Eq, dtS, tauS);
       this.h2oFrac = lag(this.h2oFrac, h2oEq, dtS, tauS);
       this.coPpmWet = lag(this.coPpmWet, coEq, dtS, tauS);
@@ -410,7 +459,7 @@ export class PlantModel {
       (wNow * this.filterInletC + FILTER_GAS_STEEL_KW_PER_K * this.filterSteelC) / (wNow + FILTER_GAS_STEEL_KW_PER_K) + cmd.filterExtraK;
 
     // Hot-gas generator outlet: flue gas plus the tempering share of the recirculated gas.
-    const recircNm3PerH = Math.max(0, this.millFlowNm3PerH - f.flue - f.falseAir - f.n2);
+    const recircNm3PerH = Math.max(0, this.millFlowNm3PerH - f.flue - air - f.n2);
     const hggFlowNm3PerH = f.flue + HGG_TEMPERING_SHARE * recircNm3PerH;
     if (hggFlowNm3PerH > 1) {
       const hggInC = (f.flue * AMBIENT_TEMP_C + HGG_TEMPERING_SHARE * recircNm3PerH * this.filterOutletC) / hggFlowNm3PerH;

@@ -22,9 +22,45 @@
 //   demo             startup as above, grinding, a filter smoulder from 45 min for 20 min,
 //                    then the operators deal with it: the extra CO decays with a 3 min
 //                    time constant, the extra heat with 10 min. 80 min.
+//   wet-coal-surge   steady grinding; from 600 s the raw coal moisture rises linearly from
+//                    12 % to 32 % over 15 min (wet coal from the stockpile reaches the feeder).
+//                    Three times the water is evaporated (9.3 t/h), the gas H2O rises from 14 %
+//                    to about 37 % and its dew point from 52 °C to about 74 °C; the inerting
+//                    controller gives way to the steam (N2 down to a tenth), the hot-gas
+//                    generator reaches its maximum firing and the mill outlet temperature sags
+//                    about 2 K below its set point. The bag filter outlet's dew point margin
+//                    shrinks steadily from about 31 K to under 10 K. The controller holds the
+//                    wet O2 at 9 %, so the dry-basis O2 rises with the steam (to about 14 %
+//                    dry): a limit on a dry basis sees that too. 40 min.
+//   o2-creep-damper  steady grinding; from 600 s a fresh-air damper sticks open and keeps
+//                    opening. Its air is not measured, so the inerting controller's
+//                    feed-forward does not answer it: the O2 at mill and filter creeps up
+//                    about 0.15 %-pt/min (wet) through the marginal band past the limits. 40 min.
+//   purge-after-trip steady grinding; at 600 s the protection system trips the mill: drive
+//                    and feeder stop at once, the burner goes out, the inerting controller is
+//                    interlocked off, the coal stays inside. The fan runs on and draws false
+//                    air in: O2 rises toward air. From 900 s the operators stop the fan and
+//                    purge with 3,000 Nm³/h N2 by hand; with no circulation part of it
+//                    short-circuits to the vent, so O2 decays exponentially, more slowly than
+//                    a well-mixed loop would, back below the limit (about 10 min into the
+//                    purge, under 5 % at the end). In the standing gas the CO from the coal
+//                    left inside builds up (to about 100 ppm). 60 min.
+//   frozen-co-analyser the filter smoulder of filter-smoulder, frame for frame, except that
+//                    the bag filter outlet CO reading (BF2-AT-214) freezes at its value at
+//                    onset + 3 min and stays exactly constant while the real CO keeps rising;
+//                    the mill outlet analyser stays live. 40 min.
 
 import { gaussian, mulberry32 } from "./prng.js";
-import { GRINDING_COMMANDS, PlantModel, STANDSTILL_COMMANDS, TAG_SPECS, type PlantCommands } from "./model.js";
+import {
+  AIR_O2_FRAC_WET,
+  FLUE_O2_FRAC,
+  GRINDING_COMMANDS,
+  PlantModel,
+  RAW_COAL_MOISTURE,
+  STANDSTILL_COMMANDS,
+  TAG_SPECS,
+  type PlantCommands,
+} from "./model.js";
 
 export const SIM_TAGS: readonly { tag: string; description: string; unit: string }[] = TAG_SPECS.map((s) => ({
   tag: s.tag,
@@ -103,6 +139,8 @@ interface ScenarioDef {
   onsetS: number | null;
   /** Prepare the plant (state at t = 0) and return the command source for time tS. */
   setup(plant: PlantModel): (tS: number) => PlantCommands;
+  /** Instrument faults: change the frame's readings at time tS in place (after the noise is drawn). */
+  faults?(): (tS: number, values: { tag: string; value: number }[]) => void;
 }
 
 const SMOULDER_ONSET_S = 600;
@@ -110,6 +148,31 @@ const DEMO_ONSET_S = 45 * 60;
 const DEMO_RESPONSE_S = DEMO_ONSET_S + 20 * 60;
 const DEMO_CO_RECOVERY_TAU_S = 3 * 60;
 const DEMO_HEAT_RECOVERY_TAU_S = 10 * 60;
+
+export const WET_COAL_ONSET_S = 600;
+/** Raw coal moisture after the surge (mass fraction, wet basis) and the time it takes to arrive. */
+export const WET_COAL_MOISTURE = 0.32;
+export const WET_COAL_RAMP_S = 900;
+
+export const DAMPER_ONSET_S = 600;
+/** Creep of the loop O2 the stuck damper's air would give at the pre-onset flows, %-pt/min wet. */
+export const DAMPER_CREEP_PCT_PER_MIN = 0.15;
+
+export const TRIP_AT_S = 600;
+/** The operators stop the fan and start the N2 purge this long after the trip. */
+export const PURGE_START_S = TRIP_AT_S + 300;
+export const PURGE_N2_NM3_PER_H = 3_000;
+
+export const FROZEN_CO_ONSET_S = SMOULDER_ONSET_S;
+export const FROZEN_CO_AT_S = FROZEN_CO_ONSET_S + 180;
+export const FROZEN_CO_TAG = "BF2-AT-214";
+
+/** The filter smoulder's commands (filter-smoulder and frozen-co-analyser). */
+function smoulderCommands(tS: number): PlantCommands {
+  const minutes = (tS - SMOULDER_ONSET_S) / 60;
+  if (minutes <= 0) return { ...GRINDING_COMMANDS };
+  return { ...GRINDING_COMMANDS, filterCoExtraPpm: smoulderExtraCoPpm(minutes), filterExtraK: smoulderExtraK(minutes) };
+}
 
 const SCENARIOS: Record<string, ScenarioDef> = {
   startup: {
@@ -131,11 +194,7 @@ const SCENARIOS: Record<string, ScenarioDef> = {
     onsetS: SMOULDER_ONSET_S,
     setup(plant) {
       plant.settleGrinding();
-      return (tS) => {
-        const minutes = (tS - SMOULDER_ONSET_S) / 60;
-        if (minutes <= 0) return { ...GRINDING_COMMANDS };
-        return { ...GRINDING_COMMANDS, filterCoExtraPpm: smoulderExtraCoPpm(minutes), filterExtraK: smoulderExtraK(minutes) };
-      };
+      return smoulderCommands;
     },
   },
   demo: {
@@ -160,6 +219,82 @@ const SCENARIOS: Record<string, ScenarioDef> = {
           filterCoExtraPpm: smoulderExtraCoPpm(peakMinutes) * Math.exp(-sinceResponseS / DEMO_CO_RECOVERY_TAU_S),
           filterExtraK: smoulderExtraK(peakMinutes) * Math.exp(-sinceResponseS / DEMO_HEAT_RECOVERY_TAU_S),
         };
+      };
+    },
+  },
+  "wet-coal-surge": {
+    description:
+      `Steady grinding; from ${WET_COAL_ONSET_S} s the raw coal moisture rises from ${RAW_COAL_MOISTURE * 100} % to ${WET_COAL_MOISTURE * 100} % ` +
+      `over ${WET_COAL_RAMP_S / 60} min: more water evaporated, gas H2O and dew point up, mill outlet temperature sags a little; ` +
+      "the bag filter outlet dew point margin shrinks from about 30 K to about 10 K. 40 min.",
+    durationS: 2400,
+    onsetS: WET_COAL_ONSET_S,
+    setup(plant) {
+      plant.settleGrinding();
+      return (tS) => {
+        const share = Math.min(1, Math.max(0, (tS - WET_COAL_ONSET_S) / WET_COAL_RAMP_S));
+        return { ...GRINDING_COMMANDS, rawCoalMoisture: RAW_COAL_MOISTURE + share * (WET_COAL_MOISTURE - RAW_COAL_MOISTURE) };
+      };
+    },
+  },
+  "o2-creep-damper": {
+    description:
+      `Steady grinding; from ${DAMPER_ONSET_S} s a fresh-air damper sticks open and keeps opening; its air is not measured, so the ` +
+      `inerting controller does not answer it: O2 at mill and filter creeps up about ${DAMPER_CREEP_PCT_PER_MIN} %-pt/min (wet) ` +
+      "through the marginal band and past the limits. 40 min.",
+    durationS: 2400,
+    onsetS: DAMPER_ONSET_S,
+    setup(plant) {
+      plant.settleGrinding();
+      // The damper's air for a loop with the pre-onset fresh flows whose O2 would rise by the
+      // creep rate: x(t) = (O2_in + a·A)/(n + A) solved for A, with a the O2 of air.
+      const f = plant.freshFlows();
+      const totalNm3PerH = f.flue + f.falseAir + f.n2 + f.steam;
+      const o2InNm3PerH = f.flue * FLUE_O2_FRAC + f.falseAir * AIR_O2_FRAC_WET;
+      const x0 = o2InNm3PerH / totalNm3PerH;
+      return (tS) => {
+        const minutes = (tS - DAMPER_ONSET_S) / 60;
+        if (minutes <= 0) return { ...GRINDING_COMMANDS };
+        const x = x0 + (DAMPER_CREEP_PCT_PER_MIN / 100) * minutes;
+        return { ...GRINDING_COMMANDS, damperAirNm3PerH: (x * totalNm3PerH - o2InNm3PerH) / (AIR_O2_FRAC_WET - x) };
+      };
+    },
+  },
+  "purge-after-trip": {
+    description:
+      `Steady grinding; at ${TRIP_AT_S} s the mill trips (drive and feed to zero at once, burner out, inerting controller off, ` +
+      "coal left inside) while the fan runs on and draws false air in: O2 rises toward air. " +
+      `From ${PURGE_START_S} s the operators stop the fan and purge with ${PURGE_N2_NM3_PER_H} Nm³/h N2: O2 decays, more slowly ` +
+      "than a well-mixed loop would, back below the limit. 60 min.",
+    durationS: 3600,
+    onsetS: TRIP_AT_S,
+    setup(plant) {
+      plant.settleGrinding();
+      return (tS) => {
+        if (tS < TRIP_AT_S) return { ...GRINDING_COMMANDS };
+        const tripped: PlantCommands = { ...STANDSTILL_COMMANDS, fansOn: true, trip: true };
+        if (tS < PURGE_START_S) return tripped;
+        return { ...tripped, fansOn: false, n2ManualNm3PerH: PURGE_N2_NM3_PER_H };
+      };
+    },
+  },
+  "frozen-co-analyser": {
+    description:
+      "The bag filter smoulder of 'filter-smoulder', except that the bag filter outlet CO analyser (BF2-AT-214) freezes at its " +
+      `reading at ${FROZEN_CO_AT_S} s (onset + 3 min) and stays exactly constant while the real CO keeps rising; the mill outlet analyser stays live. 40 min.`,
+    durationS: 2400,
+    onsetS: FROZEN_CO_ONSET_S,
+    setup(plant) {
+      plant.settleGrinding();
+      return smoulderCommands;
+    },
+    faults() {
+      let held: number | null = null;
+      return (tS, values) => {
+        if (tS < FROZEN_CO_AT_S) return;
+        const v = values.find((x) => x.tag === FROZEN_CO_TAG)!;
+        held ??= v.value;
+        v.value = held;
       };
     },
   },
@@ -192,6 +327,7 @@ export function createScenario(name: string, opts: { startTimeMs: number; stepS?
 
   const plant = new PlantModel();
   const commandsAt = def.setup(plant);
+  const fault = def.faults?.();
   const normal = gaussian(mulberry32(seed));
   const frameCount = Math.ceil(def.durationS / stepS - 1e-9);
   let k = 0;
@@ -208,7 +344,9 @@ export function createScenario(name: string, opts: { startTimeMs: number; stepS?
         // Advance from frame k-1 to k with the operator actions decided at frame k-1.
         plant.step(stepS, commandsAt((k - 1) * stepS));
       }
-      const frame: SimFrame = { tMs: startTimeMs + k * stepS * 1000, values: plant.measure(normal) };
+      const values = plant.measure(normal);
+      fault?.(k * stepS, values);
+      const frame: SimFrame = { tMs: startTimeMs + k * stepS * 1000, values };
       k++;
       return frame;
     },

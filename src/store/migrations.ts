@@ -3,12 +3,16 @@
 // Rules: a migration, once released, is never edited; a change is a new migration with the
 // next number. Each runs in its own transaction together with its row in schema_migrations,
 // so a file is always at exactly one known version. PRAGMA user_version mirrors the version
-// so that the sqlite3 shell shows it without a query.
+// so that the sqlite3 shell shows it without a query. A migration may add a data step
+// (`run`), which runs after its SQL in the same transaction.
+import type Database from "better-sqlite3";
+import { buildChunks, minuteOf, rollupMinutes, type ChunkPoints } from "./chunk.js";
 
 export interface Migration {
   version: number;
   description: string;
   sql: string;
+  run?: (db: Database.Database) => void;
 }
 
 /** Marks a file as ours in the meta table: a file without it is refused, never "migrated". */
@@ -72,7 +76,110 @@ export const MIGRATIONS: readonly Migration[] = [
       CREATE INDEX advisory_transitions_at ON advisory_transitions (at_ms);
     `,
   },
+  {
+    version: 2,
+    description: "recent rows append-only, sealed into compressed chunks with 1-minute roll-ups; samples and derived moved there",
+    sql: `
+      -- Rows not sealed yet, samples and derived values alike. A rowid table without an index:
+      -- every insert lands on the last page whatever its series, so a batch of interleaved
+      -- signals writes about its own size (a (series, time) key writes a page per row).
+      -- quality: bits 0-1 the code (samples 0 good, 1 uncertain, 2 bad; derived 0 ok,
+      -- 1 unknown); bit 4 set when the value is -0, which a REAL column stores as 0.
+      -- value NULL when the value was missing, NaN or infinite.
+      CREATE TABLE recent (
+        series_id INTEGER NOT NULL,
+        t_ms      INTEGER NOT NULL,
+        value     REAL,
+        quality   INTEGER NOT NULL
+      );
+
+      -- Sealed points of one series, compressed (src/store/chunk.ts). The chunks of a series
+      -- never overlap in time. A rowid table: rows of a few hundred bytes and more fit it
+      -- better than a WITHOUT ROWID table (sqlite.org/withoutrowid.html, section 4).
+      CREATE TABLE chunks (
+        id         INTEGER PRIMARY KEY,
+        series_id  INTEGER NOT NULL,
+        t_first_ms INTEGER NOT NULL,
+        t_last_ms  INTEGER NOT NULL,
+        n          INTEGER NOT NULL,
+        data       BLOB NOT NULL,
+        quality    BLOB
+      );
+      -- Range reads by series; covering, so that counting points never reads the blobs.
+      CREATE INDEX chunks_series_last ON chunks (series_id, t_last_ms, t_first_ms, n);
+      -- Retention and the disk budget delete the oldest chunks first.
+      CREATE INDEX chunks_last ON chunks (t_last_ms);
+
+      -- One row per series and minute with points: min, max, sum and count over the usable
+      -- values (present, and not bad / unknown), the last of them, and the worst quality code
+      -- of the minute's points.
+      CREATE TABLE rollups_1m (
+        series_id   INTEGER NOT NULL,
+        t_minute_ms INTEGER NOT NULL,
+        min         REAL,
+        max         REAL,
+        sum         REAL,
+        count       INTEGER NOT NULL,
+        last        REAL,
+        quality     INTEGER NOT NULL,
+        PRIMARY KEY (series_id, t_minute_ms)
+      ) WITHOUT ROWID;
+    `,
+    // The rows of migration 1 become chunks and roll-ups; their receive times (recv_ms) are
+    // not kept: history keeps the source time, value and quality.
+    run: (db) => {
+      moveToChunks(db, "SELECT t_ms, value, quality FROM samples WHERE signal_id = ? AND t_ms > ? ORDER BY t_ms LIMIT ?", "signal");
+      moveToChunks(db, "SELECT t_ms, value, status FROM derived WHERE series_id = ? AND t_ms > ? ORDER BY t_ms LIMIT ?", "derived");
+      db.exec("DROP TABLE samples; DROP TABLE derived;");
+    },
+  },
 ];
+
+/** Quality codes from this one up are not usable values for roll-ups, per kind of series. */
+export const UNUSABLE_CODE = { signal: 2, derived: 1 } as const;
+
+const MIGRATION_PAGE_ROWS = 100_000;
+
+/** Migration 2's data step: a series at a time, in pages, into chunks and roll-ups. */
+function moveToChunks(db: Database.Database, select: string, kind: "signal" | "derived"): void {
+  const ids = db.prepare("SELECT id FROM series WHERE kind = ? ORDER BY id").pluck().all(kind) as number[];
+  const page = db.prepare(select).raw();
+  const insertChunk = db.prepare("INSERT INTO chunks (series_id, t_first_ms, t_last_ms, n, data, quality) VALUES (?, ?, ?, ?, ?, ?)");
+  const insertRollup = db.prepare("INSERT INTO rollups_1m (series_id, t_minute_ms, min, max, sum, count, last, quality) VALUES (?, ?, ?, ?, ?, ?, ?, ?)");
+  for (const id of ids) {
+    let after = Number.NEGATIVE_INFINITY;
+    // Points of a minute cut by a page boundary wait for the next page.
+    let carry: [number, number | null, number][] = [];
+    for (;;) {
+      const rows = page.all(id, after, MIGRATION_PAGE_ROWS) as [number, number | null, number][];
+      const done = rows.length < MIGRATION_PAGE_ROWS;
+      const all = carry.concat(rows);
+      if (all.length === 0) break;
+      if (rows.length > 0) after = (rows[rows.length - 1] as [number, number | null, number])[0];
+      let end = all.length;
+      if (!done) {
+        const lastMinute = minuteOf((all[end - 1] as [number, number | null, number])[0]);
+        while (end > 0 && minuteOf((all[end - 1] as [number, number | null, number])[0]) === lastMinute) end--;
+        if (end === 0) {
+          // One minute longer than a page: keep gathering it.
+          carry = all;
+          continue;
+        }
+      }
+      const p: ChunkPoints = { timesMs: new Float64Array(end), values: new Float64Array(end), quality: new Uint8Array(end) };
+      for (let i = 0; i < end; i++) {
+        const [t, v, q] = all[i] as [number, number | null, number];
+        p.timesMs[i] = t;
+        p.values[i] = v === null ? Number.NaN : v;
+        p.quality[i] = q;
+      }
+      for (const c of buildChunks(p, 0, end)) insertChunk.run(id, c.tFirstMs, c.tLastMs, c.n, c.data, c.quality);
+      for (const r of rollupMinutes(p, 0, end, UNUSABLE_CODE[kind])) insertRollup.run(id, r.tMinuteMs, r.min, r.max, r.sum, r.count, r.last, r.quality);
+      carry = all.slice(end);
+      if (done) break;
+    }
+  }
+}
 
 export const LATEST_SCHEMA_VERSION: number = MIGRATIONS.reduce((m, x) => Math.max(m, x.version), 0);
 

@@ -10,7 +10,8 @@ const ROOT = join(import.meta.dirname, "../..");
 const cli = (...args: string[]) =>
   spawnSync(process.execPath, ["--import", "tsx", join(ROOT, "src/cli/main.ts"), ...args], { cwd: ROOT, encoding: "utf8", timeout: 30_000 });
 
-describe("millwarden check", () => {
+// Each test starts a fresh Node process with the TypeScript loader: seconds, not milliseconds.
+describe("millwarden check", { timeout: 40_000 }, () => {
   it("summarises the demo config", () => {
     const r = cli("check", "--config", "config/demo.yaml");
     expect(r.stderr).toBe("");

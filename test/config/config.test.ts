@@ -73,21 +73,21 @@ describe("config errors name file, line, key, expectation and finding", () => {
   });
 
   it("a dangling reference names what exists", () => {
-    const text = minimal + `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.temp, h2o: a.h2o_typo }\n`;
+    const text = minimal + `moistureSources:\n  - { id: m1, name: Analyser, kind: analyser, signal: a.h2o_typo }\n`;
     const p = problemsOf(text);
-    expect(p[0]).toMatchObject({ line: 15, key: "dewPoints[0].h2o" });
+    expect(p[0]).toMatchObject({ line: 15, key: "moistureSources[0].signal" });
     expect(p[0]!.message).toMatch(/unknown signal "a.h2o_typo".*a\.temp, a\.h2o/);
   });
 
   it("a signal of the wrong kind of unit is refused", () => {
-    const text = minimal + `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.h2o, h2o: a.h2o }\n`;
+    const text = minimal + `moistureSources:\n  - { id: m1, name: Analyser, kind: analyser, signal: a.h2o }\ndewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.h2o, moisture: m1 }\n`;
     expect(problemsOf(text)[0]!.message).toMatch(/in pctVol, expected a temperature unit/);
   });
 
   it("a rule on an unknown quantity suggests derived keys", () => {
     const text =
       minimal +
-      `dewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.temp, h2o: a.h2o }\n` +
+      `moistureSources:\n  - { id: m1, name: Analyser, kind: analyser, signal: a.h2o }\ndewPoints:\n  - { id: d1, name: Outlet, unit: u1, gasTemperature: a.temp, moisture: m1 }\n` +
       `rules:\n  - { id: r1, title: T, quantity: dewpoint.d1.margin, direction: low, tiers: { caution: 15 }, cause: c, consequence: c, check: c, origin: common practice }\n`;
     const p = problemsOf(text);
     expect(p[0]!.key).toBe("rules[0].quantity");

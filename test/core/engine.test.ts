@@ -13,7 +13,16 @@ const sample = (signal: string, value: number, tMs: number, extra: Partial<Sampl
   signal, value, quality: "good", sourceTimeMs: tMs, receiveTimeMs: tMs, ...extra,
 });
 
-/** Grinding-like steady values for every demo signal at time t. */
+/**
+ * Jitter of a running plant's instruments: 0, +1, 0, -1 (times an amplitude) at successive
+ * seconds from T0. The analysers of a running mill are never perfectly still, and with analyser
+ * health a value that does not move for the frozen window (demo: 600 s) is frozen, not steady.
+ * Zero at T0, so single-sample checks stay exact; its least-squares slope over a 300 s window
+ * is below 6·amplitude/300² per s (negligible beside the ramps below).
+ */
+const jitter = (t: number, amplitude: number): number => amplitude * [0, 1, 0, -1][((Math.round((t - T0) / 1000) % 4) + 4) % 4]!;
+
+/** Grinding-like steady values for every demo signal at time t, with instrument jitter (±0.05) on those not overridden. */
 function steady(t: number, over: Record<string, number> = {}): Sample[] {
   const base: Record<string, number> = {
     "hg2.outlet.temp": 320, "vm2.inlet.temp": 240, "vm2.outlet.temp": 90, "vm2.outlet.press": -1500,
@@ -21,6 +30,7 @@ function steady(t: number, over: Record<string, number> = {}): Sample[] {
     "bf2.inlet.temp": 86, "bf2.outlet.temp": 80, "bf2.outlet.press": -2500, "bf2.outlet.o2": 10,
     "bf2.outlet.co": 40, "bf2.outlet.h2o": 10, "fs2.temp": 45, "fs2.o2": 6, "fs2.co": 15, "ig2.flow": 300,
   };
+  for (const k of Object.keys(base)) base[k]! += jitter(t, 0.05);
   return Object.entries({ ...base, ...over }).map(([k, v]) => sample(k, v, t));
 }
 
@@ -94,12 +104,12 @@ describe("inerting state", () => {
 });
 
 describe("CO gradient and advisories", () => {
-  function runRamp(e: Engine, ppmPerMin: number, seconds: number, start = T0) {
+  function runRamp(e: Engine, ppmPerMin: number, seconds: number, start = T0, noisePpm = 0) {
     const events: CoreEvent[] = [];
     for (let k = 0; k <= seconds; k++) {
       const t = start + k * 1000;
       events.push(...e.tick(t));
-      for (const s of steady(t, { "bf2.outlet.co": 40 + (ppmPerMin / 60) * k })) e.ingest(s);
+      for (const s of steady(t, { "bf2.outlet.co": 40 + (ppmPerMin / 60) * k + jitter(t, noisePpm) })) e.ingest(s);
     }
     return events;
   }
@@ -117,7 +127,12 @@ describe("CO gradient and advisories", () => {
   });
 
   it("raises nothing on a flat CO", () => {
-    const events = runRamp(engine, 0, 900);
+    // CO flat but alive (±0.4 ppm, the simulator's CO noise): a flat, unmoving CO would read
+    // frozen after 600 s and prove nothing about the gradient.
+    const events = runRamp(engine, 0, 900, T0, 0.4);
+    const co = engine.snapshot().coPoints.find((p) => p.id === "bf2-outlet")!;
+    expect(co.status).toBe("ok");
+    expect(Math.abs(co.gradientPpmPerMin!)).toBeLessThan(0.1);
     expect(advisories(events).filter((a) => a.advisoryId.startsWith("co-"))).toEqual([]);
   });
 

@@ -33,6 +33,87 @@ function advisory(partial: Partial<AdvisoryView> & Pick<AdvisoryView, "id" | "ti
   };
 }
 
+type CoPointView = PlantState["coPoints"][number];
+
+/** A CO point view from its headline figures; the window and baseline details follow from them. */
+type FakeDewPoint = PlantState["dewPoints"][number];
+function fakeDewPoint(
+  p: Pick<FakeDewPoint, "id" | "name" | "unitId" | "gasTempC" | "h2oPctVol" | "absPressurePa" | "dewPointC" | "marginK" | "status" | "reason"> & Partial<FakeDewPoint>,
+): FakeDewPoint {
+  const trendWhy = p.marginK === null ? `margin unknown: ${p.reason}` : "margin not shrinking (0.010 K/min)";
+  return {
+    moistureSourceId: "bf2-h2o",
+    moistureSourceName: "Filter outlet H2O analyser",
+    moistureSourceKind: "analyser",
+    gaugePressurePa: p.absPressurePa === null ? null : p.absPressurePa - 101_200,
+    dewPointReason: p.dewPointC === null ? p.reason : "",
+    comparisons: [],
+    h2oDisagreementPctVol: null,
+    dewPointDisagreementK: null,
+    disagreementReason: "no other moisture source to compare with",
+    marginTrendKPerMin: p.marginK === null ? null : 0.01,
+    trendWindowS: 600,
+    trendReason: p.marginK === null ? trendWhy : "least squares over 600 s (window 600 s, 601 points)",
+    timeToCondensationS: null,
+    timeToCondensationReason: trendWhy,
+    ...p,
+  };
+}
+
+type FakeMoistureSource = PlantState["moistureSources"][number];
+function fakeMoistureSource(p: Pick<FakeMoistureSource, "id" | "name" | "kind" | "h2oPctVol" | "status" | "reason"> & Partial<FakeMoistureSource>): FakeMoistureSource {
+  return {
+    relativeHumidityPct: null,
+    sensorTempC: null,
+    sensorAbsPressurePa: null,
+    coalFeedTPerH: null,
+    rawMoisturePctMass: null,
+    productMoisturePctMass: null,
+    evaporatedWaterKgPerH: null,
+    gasFlowNm3PerH: null,
+    gasFlowMeasuredAt: null,
+    incomingH2oPctVol: null,
+    ...p,
+  };
+}
+
+function coPoint(p: Pick<CoPointView, "id" | "name" | "unitId" | "signal" | "coPpm" | "gradientPpmPerMin" | "windowS" | "status" | "reason">): CoPointView {
+  const window = (windowS: number) => ({
+    windowS,
+    robustPpmPerMin: p.gradientPpmPerMin,
+    robustAsOfMs: p.status === "ok" ? FAKE_NOW_MS - 1000 : null,
+    lsPpmPerMin: p.gradientPpmPerMin,
+    points: p.status === "ok" ? windowS : 0,
+    spanS: p.status === "ok" ? windowS : 0,
+    status: p.status,
+    reason: p.reason,
+  });
+  const baselinePpm = p.coPpm === null ? null : 40;
+  return {
+    ...p,
+    gradientLsPpmPerMin: p.gradientPpmPerMin,
+    gradientLongPpmPerMin: p.gradientPpmPerMin,
+    transportLagS: 60,
+    short: window(p.windowS),
+    long: window(p.windowS * 3),
+    baseline: {
+      ppm: baselinePpm,
+      status: baselinePpm === null ? "unknown" : "ok",
+      reason: baselinePpm === null ? p.reason : "median of 61 values over 3600 s",
+      frozen: null,
+      phase: null,
+      phaseNote: "no operating phase computed for the unit: the baseline is not frozen by phase",
+      values: 61,
+      windowS: 3600,
+      riseAbovePpm: p.coPpm === null || baselinePpm === null ? null : p.coPpm - baselinePpm,
+      riseReason: "",
+    },
+    store: null,
+    lastRestart: { atMs: null, reason: "no data yet" },
+    samples: { accepted: 3600, duplicates: 0, outOfOrder: 0 },
+  };
+}
+
 export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
   const sig = (id: string, name: string, unit: string, value: number | null, extra: Partial<PlantState["signals"][number]> = {}) => ({
     id,
@@ -83,6 +164,22 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
           marginPctPt: 2.1,
           marginalBandPctPt: 1.5,
           reason: "O2 below the limit by more than the marginal band",
+          measuredState: "inert",
+          o2Signals: ["vm2-o2"],
+          readingPctVol: 7.9,
+          readingBasis: "wet",
+          h2oSignal: null,
+          h2oPctVol: null,
+          limits: [
+            { id: "site-maximum", pctVol: 10, basis: "wet", text: "site maximum 10 % wet (explosion protection document)", origin: "explosion protection document", locPctVol: null, monitoring: null, temperatureAllowancePctPt: null, o2PctVol: 7.9, marginPctPt: 2.1, trendPctPtPerMin: 0.02, timeToLimitS: 6300, governing: true },
+          ],
+          readings: [{ id: "vm2-o2", pctVol: 7.9, trusted: true, used: true, reason: "" }],
+          vote: null,
+          trendPctPtPerMin: 0.02,
+          trendWindowS: 300,
+          timeToLimitS: 6300,
+          trendReason: "least squares over 300 s (300 points)",
+          purge: null,
         },
       },
       {
@@ -100,6 +197,22 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
           marginPctPt: 0.9,
           marginalBandPctPt: 1.5,
           reason: "O2 within 1.5 points of the limit",
+          measuredState: "marginal",
+          o2Signals: ["bf2-o2"],
+          readingPctVol: 9.1,
+          readingBasis: "dry",
+          h2oSignal: null,
+          h2oPctVol: null,
+          limits: [
+            { id: "loc", pctVol: 10, basis: "dry", text: "LOC 12 % dry with the 2-point margin", origin: "coal test report", locPctVol: 12, monitoring: "continuous", temperatureAllowancePctPt: null, o2PctVol: 9.1, marginPctPt: 0.9, trendPctPtPerMin: -0.05, timeToLimitS: null, governing: true },
+          ],
+          readings: [{ id: "bf2-o2", pctVol: 9.1, trusted: true, used: true, reason: "" }],
+          vote: null,
+          trendPctPtPerMin: -0.05,
+          trendWindowS: 300,
+          timeToLimitS: null,
+          trendReason: "O2 not rising toward a limit",
+          purge: null,
         },
       },
       {
@@ -117,36 +230,48 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
           marginPctPt: null,
           marginalBandPctPt: 1,
           reason: "O2 analyser S21-AT-311 stale: no update for 12 min",
+          measuredState: "unknown",
+          o2Signals: ["s21-o2"],
+          readingPctVol: null,
+          readingBasis: "dry",
+          h2oSignal: null,
+          h2oPctVol: null,
+          limits: [
+            { id: "site-maximum", pctVol: 8, basis: "dry", text: "site maximum 8 % dry", origin: "explosion protection document", locPctVol: null, monitoring: null, temperatureAllowancePctPt: null, o2PctVol: null, marginPctPt: null, trendPctPtPerMin: null, timeToLimitS: null, governing: true },
+          ],
+          readings: [{ id: "s21-o2", pctVol: null, trusted: false, used: false, reason: "s21-o2: no data for 720 s" }],
+          vote: null,
+          trendPctPtPerMin: null,
+          trendWindowS: 300,
+          timeToLimitS: null,
+          trendReason: "O2 trend unknown: s21-o2: no data for 720 s",
+          purge: null,
         },
       },
       { id: "hg2", name: "Hot-gas generator HG2", kind: "hot-gas-generator", inerting: null },
     ],
+    moistureSources: [
+      fakeMoistureSource({ id: "bf2-h2o", name: "Filter outlet H2O analyser", kind: "analyser", h2oPctVol: 14.5, status: "ok", reason: "H2O analyser bf2-h2o" }),
+      fakeMoistureSource({
+        id: "vm2-balance",
+        name: "Mill moisture balance",
+        kind: "mass-balance",
+        h2oPctVol: 13.6,
+        status: "ok",
+        reason: "mass balance: 3.52 t/h of water from 33.0 t/h of coal (12.0 % -> 1.5 %) into 70000 Nm³/h (mill-inlet) at 9.0 % H2O",
+        coalFeedTPerH: 33,
+        rawMoisturePctMass: 12,
+        productMoisturePctMass: 1.5,
+        evaporatedWaterKgPerH: 3518,
+        gasFlowNm3PerH: 70_000,
+        gasFlowMeasuredAt: "mill-inlet",
+        incomingH2oPctVol: 9,
+      }),
+    ],
     dewPoints: [
-      {
-        id: "vm2-outlet",
-        name: "Mill outlet",
-        unitId: "vm2",
-        gasTempC: 92.4,
-        h2oPctVol: 14.8,
-        absPressurePa: 100_950,
-        dewPointC: 53.9,
-        marginK: 38.5,
-        status: "ok",
-        reason: "",
-      },
-      {
-        id: "bf2-inlet",
-        name: "Filter inlet",
-        unitId: "bf2",
-        gasTempC: 84,
-        h2oPctVol: 14.6,
-        absPressurePa: 100_700,
-        dewPointC: 53.6,
-        marginK: 30.4,
-        status: "ok",
-        reason: "",
-      },
-      {
+      fakeDewPoint({ id: "vm2-outlet", name: "Mill outlet", unitId: "vm2", gasTempC: 92.4, h2oPctVol: 14.8, absPressurePa: 100_950, dewPointC: 53.9, marginK: 38.5, status: "ok", reason: "" }),
+      fakeDewPoint({ id: "bf2-inlet", name: "Filter inlet", unitId: "bf2", gasTempC: 84, h2oPctVol: 14.6, absPressurePa: 100_700, dewPointC: 53.6, marginK: 30.4, status: "ok", reason: "" }),
+      fakeDewPoint({
         id: "bf2-outlet",
         name: "Filter outlet",
         unitId: "bf2",
@@ -157,8 +282,16 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
         marginK: 18.1,
         status: "ok",
         reason: "",
-      },
-      {
+        marginTrendKPerMin: -0.12,
+        timeToCondensationS: 9050,
+        comparisons: [
+          { id: "vm2-balance", name: "Mill moisture balance", kind: "mass-balance", h2oPctVol: 13.6, dewPointC: 52.2, h2oDifferencePctVol: -0.9, dewPointDifferenceK: -1.2, status: "ok", reason: "" },
+        ],
+        h2oDisagreementPctVol: 0.9,
+        dewPointDisagreementK: 1.2,
+        disagreementReason: "",
+      }),
+      fakeDewPoint({
         id: "bf2-hopper",
         name: "Dust hopper",
         unitId: "bf2",
@@ -169,12 +302,34 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
         marginK: null,
         status: "unknown",
         reason: "gas temperature BF2-TT-215 bad: open circuit",
+      }),
+    ],
+    dewPointSummary: [
+      {
+        id: "plant",
+        status: "partial",
+        reason: "unknown at bf2-hopper: gas temperature BF2-TT-215 bad: open circuit; the lowest known is 18.1 K at bf2-outlet",
+        lowestMarginK: 18.1,
+        locationId: "bf2-outlet",
+        locationName: "Filter outlet",
+        lowestMarginTrendKPerMin: -0.12,
+        shortestTimeToCondensationS: 9050,
+        shortestTimeLocationId: "bf2-outlet",
+        knownLocations: 3,
+        totalLocations: 4,
+        unknownLocations: [{ id: "bf2-hopper", reason: "gas temperature BF2-TT-215 bad: open circuit" }],
+        barometricPa: 101_200,
+        barometricSource: "configured",
+        barometricReason: "configured 1012.0 hPa",
+        lowestAcidMarginK: null,
+        acidLocationId: null,
       },
     ],
+    acidDewPoints: [],
     coPoints: [
-      { id: "vm2-outlet", name: "Mill outlet", unitId: "vm2", signal: "vm2-co", coPpm: 62, gradientPpmPerMin: 0.4, windowS: 300, status: "ok", reason: "" },
-      { id: "bf2-outlet", name: "Filter outlet", unitId: "bf2", signal: "bf2-co", coPpm: 148, gradientPpmPerMin: 6.8, windowS: 300, status: "ok", reason: "" },
-      {
+      coPoint({ id: "vm2-outlet", name: "Mill outlet", unitId: "vm2", signal: "vm2-co", coPpm: 62, gradientPpmPerMin: 0.4, windowS: 300, status: "ok", reason: "" }),
+      coPoint({ id: "bf2-outlet", name: "Filter outlet", unitId: "bf2", signal: "bf2-co", coPpm: 148, gradientPpmPerMin: 6.8, windowS: 300, status: "ok", reason: "" }),
+      coPoint({
         id: "s21-top",
         name: "Silo S21 top",
         unitId: "s21",
@@ -184,6 +339,78 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
         windowS: 3600,
         status: "unknown",
         reason: "analyser S21-AT-312 in function check (calibration)",
+      }),
+    ],
+    coRises: [
+      {
+        id: "bf2",
+        name: "Filter CO rise",
+        unitId: "bf2",
+        inlet: "vm2-outlet",
+        outlet: "bf2-outlet",
+        transportDelayS: 20,
+        outletPpm: 148,
+        inletPpm: 62,
+        inletAtMs: nowMs - 21_000,
+        inletHow: "interpolated",
+        risePpm: 86,
+        status: "ok",
+        reason: "",
+        historyPoints: 80,
+      },
+    ],
+    phases: [
+      {
+        id: "vm2",
+        unitId: "vm2",
+        phase: "grinding",
+        sinceMs: nowMs - 185 * MIN,
+        reason: "drive running (1795 kW >= 100 kW) and feed on (29.8 t/h >= 3 t/h)",
+        inputs: {
+          drivePowerKW: 1795,
+          feedTPerH: 29.8,
+          millInletTempC: 214,
+          millOutletTempC: 92.4,
+          inertFlowNm3PerH: 10_200,
+          trip: null,
+          maintenance: null,
+          driveRunning: true,
+          feedOn: true,
+          hotGas: true,
+          inertOn: true,
+          coalInside: true,
+        },
+      },
+    ],
+    analysers: [
+      {
+        id: "vm2-a131",
+        name: "Mill outlet O2 analyser",
+        state: "ok",
+        reasons: [],
+        sinceMs: nowMs - 185 * MIN,
+        plantRunning: true,
+        signals: [{ signal: "vm2-o2", role: "value", state: "ok", reasons: [] }],
+      },
+      {
+        id: "s21-a311",
+        name: "Silo S21 O2/CO analyser",
+        state: "stale",
+        reasons: [
+          "s21-o2: no update for 720 s (expected every 5 s, stale after 3 periods)",
+          "s21-co: analyser in function check (NAMUR NE 107 category C: calibration, blowback or multiplexer switching)",
+        ],
+        sinceMs: nowMs - 12 * MIN + 15_000,
+        plantRunning: true,
+        signals: [
+          { signal: "s21-o2", role: "value", state: "stale", reasons: ["no update for 720 s (expected every 5 s, stale after 3 periods)"] },
+          {
+            signal: "s21-co",
+            role: "value",
+            state: "function-check",
+            reasons: ["analyser in function check (NAMUR NE 107 category C: calibration, blowback or multiplexer switching)"],
+          },
+        ],
       },
     ],
     advisories: [

@@ -61,9 +61,11 @@ describe("tags and scenario registry", () => {
     for (const t of SIM_TAGS) expect(t.description.length).toBeGreaterThan(5);
   });
 
-  it("knows the three scenarios and rejects an unknown name with the list of known ones", () => {
-    expect(scenarioNames()).toEqual(["startup", "filter-smoulder", "demo"]);
-    expect(() => createScenario("shutdown", { startTimeMs: 0 })).toThrow(/unknown simulator scenario "shutdown".*"startup", "filter-smoulder", "demo"/);
+  it("knows the seven scenarios and rejects an unknown name with the list of known ones", () => {
+    expect(scenarioNames()).toEqual(["startup", "filter-smoulder", "demo", "wet-coal-surge", "o2-creep-damper", "purge-after-trip", "frozen-co-analyser"]);
+    expect(() => createScenario("shutdown", { startTimeMs: 0 })).toThrow(
+      /unknown simulator scenario "shutdown".*"startup", "filter-smoulder", "demo", "wet-coal-surge", "o2-creep-damper", "purge-after-trip", "frozen-co-analyser"/,
+    );
     // A name inherited from Object.prototype is not a scenario either.
     expect(() => createScenario("toString", { startTimeMs: 0 })).toThrow(/unknown simulator scenario/);
   });

@@ -22,10 +22,11 @@ afterEach(() => {
 
 const SIGNALS = Array.from({ length: 10 }, (_, i) => `VM2-TT-${110 + i}`);
 
-function countRows(path: string, table: string): number {
+/** Unsealed sample rows in the file (the append-only recent table). */
+function countSampleRows(path: string): number {
   const db = new Database(path, { readonly: true });
   try {
-    return db.prepare(`SELECT count(*) FROM ${table}`).pluck().get() as number;
+    return db.prepare("SELECT count(*) FROM recent JOIN series ON series.id = recent.series_id WHERE kind = 'signal'").pluck().get() as number;
   } finally {
     db.close();
   }
@@ -47,7 +48,7 @@ describe("Historian on a full file", () => {
     expect(s1.rowsWritten).toBeGreaterThan(0);
     expect(s1.rowsWritten % 1000).toBe(0);
     expect(s1.rowsWritten + s1.queueDepth).toBe(n);
-    expect(countRows(path, "samples")).toBe(s1.rowsWritten);
+    expect(countSampleRows(path)).toBe(s1.rowsWritten);
     expect(s1.lastFlushMs).toBeNull();
 
     // Still full: the next flush retries, fails again, and appending goes on.
@@ -73,7 +74,7 @@ describe("Historian on a full file", () => {
     expect(h.samples("VM2-TT-199", T0, T0)).toEqual([{ tMs: T0, value: -1, quality: "good" }]);
     expect(h.derived("dewpoint.bf1-outlet.marginK", T0, T0)).toEqual([{ tMs: T0, value: 18.2, status: "ok" }]);
     expect(h.transitions({})).toEqual([transition({ atMs: T0 })]);
-    expect(countRows(path, "samples")).toBe(n + 1);
+    expect(countSampleRows(path)).toBe(n + 1);
   });
 
   it("forgets the series ids a failed batch assigned (they were rolled back)", () => {
@@ -94,7 +95,7 @@ describe("Historian on a full file", () => {
     const db = new Database(path, { readonly: true });
     try {
       // No sample points at a series id that does not exist.
-      expect(db.prepare("SELECT count(*) FROM samples WHERE signal_id NOT IN (SELECT id FROM series)").pluck().get()).toBe(0);
+      expect(db.prepare("SELECT count(*) FROM recent WHERE series_id NOT IN (SELECT id FROM series)").pluck().get()).toBe(0);
     } finally {
       db.close();
     }
@@ -120,6 +121,81 @@ describe("Historian on a full file", () => {
     for (let i = 0; i < 10_000; i++) hh.appendSample(sample("VM2-AT-121", T0 + i, i));
     hh.close();
     expect(hh.stats()).toMatchObject({ state: "degraded", queueDepth: 0, droppedRows: 10_000, rowsWritten: 0 });
-    expect(countRows(path, "samples")).toBe(0);
+    expect(countSampleRows(path)).toBe(0);
+  });
+});
+
+describe("Historian sealing on a full file", () => {
+  it("turns degraded when a seal cannot get pages, loses nothing, and seals once there is room again", () => {
+    const path = join(dir, "hist.db");
+    h = Historian.open({ path, sealIntervalS: 1, sealAgeS: 0 });
+    // Old and new points interleaved in the same pages of the recent table (one old per three
+    // new): sealing the old ones frees no page, so the chunks need new ones.
+    const n = 3000;
+    for (let i = 0; i < n; i++) {
+      for (const sig of SIGNALS) {
+        h.appendSample(sample(sig, T0 + i * 1000, i + 0.25));
+        for (let k = 1; k <= 3; k++) h.appendSample(sample(sig, T0 + 10 * 86_400_000 + (i * 3 + k) * 1000, -i - k / 10));
+      }
+    }
+    h.flush();
+    expect(h.stats()).toMatchObject({ state: "ok", recentRows: 4 * n * SIGNALS.length });
+    const probe = new Database(path, { readonly: true });
+    const pages = probe.pragma("page_count", { simple: true }) as number;
+    probe.close();
+    h.setMaxPageCount(pages);
+
+    // Seal the old points (before T0 + 5 days): no room.
+    const r = h.maintain(T0 + 5 * 86_400_000);
+    expect(r.error).toMatch(/SQLITE_FULL: database or disk is full/);
+    expect(h.stats()).toMatchObject({ state: "degraded", failedMaintains: 1, sealedRows: 0, recentRows: 4 * n * SIGNALS.length });
+    expect(h.stats().lastError).toMatch(/SQLITE_FULL/);
+    // Nothing was lost or sealed halfway: the seal's transaction rolled back whole.
+    const db = new Database(path, { readonly: true });
+    try {
+      expect(db.prepare("SELECT count(*) FROM chunks").pluck().get()).toBe(0);
+      expect(db.prepare("SELECT count(*) FROM rollups_1m").pluck().get()).toBe(0);
+      expect(db.prepare("SELECT count(*) FROM recent").pluck().get()).toBe(4 * n * SIGNALS.length);
+    } finally {
+      db.close();
+    }
+    expect(h.samples("VM2-TT-113", T0, T0 + n * 1000)).toHaveLength(n);
+    // Appends never throw meanwhile; a retry that still finds no room stays degraded.
+    h.appendSample(sample("VM2-TT-110", T0 + 10 * 86_400_000 + 99_999_000, 1));
+    expect(h.maintain(T0 + 5 * 86_400_000 + 1000).error).toMatch(/SQLITE_FULL/);
+    expect(h.stats().state).toBe("degraded");
+
+    // Room again: the next maintain seals, the state is ok, every point is there once.
+    h.setMaxPageCount(1_000_000);
+    const r2 = h.maintain(T0 + 5 * 86_400_000 + 2000);
+    expect(r2.error).toBeNull();
+    expect(h.stats()).toMatchObject({ state: "ok", lastError: null, sealedRows: n * SIGNALS.length, failedMaintains: 2 });
+    for (const sig of SIGNALS) {
+      const old = h.samples(sig, T0, T0 + n * 1000);
+      expect(old).toHaveLength(n);
+      expect(old.every((p, i) => p.tMs === T0 + i * 1000 && p.value === i + 0.25)).toBe(true);
+      expect(h.samples(sig, T0 + 10 * 86_400_000, Number.POSITIVE_INFINITY).length).toBe(3 * n + (sig === "VM2-TT-110" ? 1 : 0));
+    }
+  });
+
+  it("turns degraded when another process holds the write lock during a seal, and recovers", () => {
+    // SQLITE_BUSY after busy_timeout (sqlite.org/rescode.html#busy): a locked file, not a full one.
+    const path = join(dir, "hist.db");
+    h = Historian.open({ path, sealIntervalS: 1, sealAgeS: 0, busyTimeoutMs: 0 });
+    for (let i = 0; i < 200; i++) h.appendSample(sample("VM2-PT-112", T0 + i * 1000, -4 - i / 100));
+    h.flush();
+    const other = new Database(path);
+    try {
+      other.prepare("BEGIN IMMEDIATE").run();
+      const r = h.maintain(T0 + 3_600_000);
+      expect(r.error).toMatch(/SQLITE_BUSY/);
+      expect(h.stats()).toMatchObject({ state: "degraded", sealedRows: 0, recentRows: 200 });
+      other.prepare("ROLLBACK").run();
+    } finally {
+      other.close();
+    }
+    expect(h.maintain(T0 + 3_600_000 + 1000).error).toBeNull();
+    expect(h.stats()).toMatchObject({ state: "ok", sealedRows: 200, recentRows: 0 });
+    expect(h.samples("VM2-PT-112", T0, T0 + 200_000)).toHaveLength(200);
   });
 });

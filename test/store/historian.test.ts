@@ -5,6 +5,7 @@ import { afterEach, beforeEach, describe, expect, it, vi } from "vitest";
 import type { Sample } from "../../src/core/types.js";
 import { Historian, HistorianOpenError } from "../../src/store/historian.js";
 import { LATEST_SCHEMA_VERSION } from "../../src/store/migrations.js";
+import { decodeQualityRuns } from "../../src/store/chunk.js";
 import { T0, derived, sample, tempDir, transition } from "./helpers.js";
 
 let dir: string;
@@ -53,19 +54,19 @@ describe("Historian round trip", () => {
     expect(h.samples("VM2-AT-121", T0, T0)[0]?.value).toBe(0.30000000000000004);
   });
 
-  it("stores the quality as the OPC UA severity bits and the receive time", () => {
+  it("stores the quality as the OPC UA severity bits, before and after sealing", () => {
     // OPC UA Part 4, StatusCode: severity bits 00 Good, 01 Uncertain, 10 Bad.
     const h = openHistorian();
     h.appendSample(sample("VM2-PT-101", T0, -3.1, "good", T0 + 15));
     h.appendSample(sample("VM2-PT-101", T0 + 1, -3.2, "uncertain", T0 + 16));
     h.appendSample(sample("VM2-PT-101", T0 + 2, -3.3, "bad", T0 + 17));
     h.flush();
-    const rows = peek("hist.db", (db) => db.prepare("SELECT quality, recv_ms FROM samples ORDER BY t_ms").all());
-    expect(rows).toEqual([
-      { quality: 0b00, recv_ms: T0 + 15 },
-      { quality: 0b01, recv_ms: T0 + 16 },
-      { quality: 0b10, recv_ms: T0 + 17 },
-    ]);
+    expect(peek("hist.db", (db) => db.prepare("SELECT quality FROM recent ORDER BY t_ms").pluck().all())).toEqual([0b00, 0b01, 0b10]);
+    h.maintain(T0 + 3_600_000);
+    // Sealed: the quality runs (start, length, code) of the chunk, codes other than good only.
+    const blob = peek("hist.db", (db) => db.prepare("SELECT quality FROM chunks").pluck().get()) as Uint8Array;
+    expect([...decodeQualityRuns(blob, 3)]).toEqual([0b00, 0b01, 0b10]);
+    expect(h.samples("VM2-PT-101", T0, T0 + 2).map((p) => p.quality)).toEqual(["good", "uncertain", "bad"]);
   });
 
   it("stores infinite values as NULL too", () => {
@@ -214,10 +215,15 @@ describe("Historian duplicates", () => {
     h.flush();
     expect(h.samples("VM2-TT-111", T0, T0)).toEqual([{ tMs: T0, value: 92, quality: "bad" }]);
     expect(h.derived("co.vm2-outlet.gradientPpmPerMin", T0, T0)).toEqual([{ tMs: T0, value: null, status: "unknown" }]);
-    expect(peek("hist.db", (db) => db.prepare("SELECT recv_ms FROM samples").pluck().all())).toEqual([T0 + 30]);
+    // The recent table is append-only: it holds every write until they are sealed into one point.
+    expect(peek("hist.db", (db) => db.prepare("SELECT value FROM recent WHERE value >= 90 ORDER BY rowid").pluck().all())).toEqual([90, 91, 92]);
     const s = h.stats();
     expect(s.duplicateRows).toBe(3);
     expect(s.rowsWritten).toBe(5);
+    h.maintain(T0 + 3_600_000);
+    expect(peek("hist.db", (db) => db.prepare("SELECT count(*) FROM recent").pluck().get())).toBe(0);
+    expect(h.samples("VM2-TT-111", T0, T0)).toEqual([{ tMs: T0, value: 92, quality: "bad" }]);
+    expect(h.derived("co.vm2-outlet.gradientPpmPerMin", T0, T0)).toEqual([{ tMs: T0, value: null, status: "unknown" }]);
   });
 
   it("keeps every transition, even identical ones (an audit trail is never deduplicated)", () => {
@@ -237,7 +243,11 @@ describe("Historian batching", () => {
     for (let i = 0; i < 5; i++) h.appendDerived(derived("dewpoint.bf1-outlet.marginK", T0 + i, i));
     h.appendTransition(transition({ atMs: T0 }));
     const count = (): number[] =>
-      peek("hist.db", (db) => ["samples", "derived", "advisory_transitions"].map((t) => db.prepare(`SELECT count(*) FROM ${t}`).pluck().get() as number));
+      peek("hist.db", (db) => [
+        db.prepare("SELECT count(*) FROM recent JOIN series ON series.id = recent.series_id WHERE kind = 'signal'").pluck().get() as number,
+        db.prepare("SELECT count(*) FROM recent JOIN series ON series.id = recent.series_id WHERE kind = 'derived'").pluck().get() as number,
+        db.prepare("SELECT count(*) FROM advisory_transitions").pluck().get() as number,
+      ]);
     expect(count()).toEqual([0, 0, 0]);
     expect(h.stats()).toMatchObject({ queueDepth: 106, rowsWritten: 0, lastFlushMs: null });
     h.flush();
@@ -339,13 +349,16 @@ describe("Historian file", () => {
       userVersion: db.pragma("user_version", { simple: true }),
       application: db.prepare("SELECT value FROM meta WHERE key = 'application'").pluck().get(),
     }));
-    expect(rows).toEqual([{ version: 1, applied_at_ms: T0 }]);
-    expect(userVersion).toBe(1);
-    expect(LATEST_SCHEMA_VERSION).toBe(1);
+    expect(rows).toEqual([
+      { version: 1, applied_at_ms: T0 },
+      { version: 2, applied_at_ms: T0 },
+    ]);
+    expect(userVersion).toBe(2);
+    expect(LATEST_SCHEMA_VERSION).toBe(2);
     expect(application).toBe("millwarden");
   });
 
-  it("creates the tables of migration 1 as specified", () => {
+  it("creates the tables of migration 2 as specified", () => {
     openHistorian();
     const tables = peek("hist.db", (db) =>
       db.prepare("SELECT name, sql FROM sqlite_master WHERE type IN ('table', 'index') AND name NOT LIKE 'sqlite_%' ORDER BY name").all(),
@@ -354,17 +367,26 @@ describe("Historian file", () => {
       "advisory_transitions",
       "advisory_transitions_advisory_at",
       "advisory_transitions_at",
-      "derived",
+      "chunks",
+      "chunks_last",
+      "chunks_series_last",
       "meta",
-      "samples",
+      "recent",
+      "rollups_1m",
       "schema_migrations",
       "series",
     ]);
-    // WITHOUT ROWID tables store rows in the primary-key b-tree itself (sqlite.org/withoutrowid.html).
     const sqlOf = (n: string): string => tables.find((t) => t.name === n)?.sql ?? "";
-    expect(sqlOf("samples")).toMatch(/PRIMARY KEY \(signal_id, t_ms\)\s*\) WITHOUT ROWID/);
-    expect(sqlOf("derived")).toMatch(/PRIMARY KEY \(series_id, t_ms\)\s*\) WITHOUT ROWID/);
+    // A rowid table without an index or primary key: inserts append to its last page (sqlite.org/rowidtable.html).
+    expect(sqlOf("recent")).not.toMatch(/PRIMARY KEY|WITHOUT ROWID/);
+    expect(tables.some((t) => t.sql?.includes("ON recent"))).toBe(false);
+    // WITHOUT ROWID tables store rows in the primary-key b-tree itself (sqlite.org/withoutrowid.html).
+    expect(sqlOf("rollups_1m")).toMatch(/PRIMARY KEY \(series_id, t_minute_ms\)\s*\) WITHOUT ROWID/);
+    expect(sqlOf("chunks")).toMatch(/data\s+BLOB NOT NULL/);
+    expect(sqlOf("chunks_series_last")).toContain("(series_id, t_last_ms, t_first_ms, n)");
     expect(sqlOf("advisory_transitions_advisory_at")).toContain("(advisory_id, at_ms)");
+    // auto_vacuum = 2 is INCREMENTAL (sqlite.org/pragma.html#pragma_auto_vacuum); set before the first table.
+    expect(peek("hist.db", (db) => db.pragma("auto_vacuum", { simple: true }))).toBe(2);
   });
 
   it("refuses a folder in place of the file, naming the path", () => {
