@@ -21,9 +21,11 @@ const USAGE = `millwarden: advisory-only monitoring for coal grinding plants
 
 usage:
   millwarden run --config FILE [--log json|text]
-  millwarden demo [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
+  millwarden demo [--source mqtt|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
   millwarden check --config FILE
   millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
+  millwarden pki list|show [--pki DIR]          OPC UA certificates: trusted and rejected servers, our own
+  millwarden pki trust FILE [--pki DIR]         trust a server certificate (compare its thumbprint first)
 
 ${ADVISORY_ONLY}`;
 
@@ -69,45 +71,139 @@ async function cmdDemo(args: string[]): Promise<number> {
       port: { type: "string" },
       "broker-port": { type: "string" },
       data: { type: "string", default: "data/demo" },
+      source: { type: "string", default: "mqtt" },
     },
   });
   const speed = num(values.speed, "speed", 1);
   if (speed === 0) throw new UsageError("--speed must be above 0 for the demo");
+  if (values.source !== "mqtt" && values.source !== "opcua") throw new UsageError(`--source expects mqtt or opcua; found "${values.source}"`);
   const log = makeLogger("text");
   const base = loadConfig(DEMO_CONFIG);
-  const broker = await startEmbeddedBroker(num(values["broker-port"], "broker-port", DEMO_BROKER_PORT));
+  const abort = new AbortController();
+  const plant = values.source === "mqtt" ? await demoOverMqtt(base, values, speed, abort.signal, log) : await demoOverOpcUa(base, values, speed, abort.signal, log);
   const cfg: MillwardenConfig = {
-    ...base,
+    ...plant.config,
     // Faster than real time, the box's clock no longer matches the data: follow the data's own time.
     clock: speed === 1 ? "wall" : "data",
     storage: { ...base.storage, path: resolve(values.data, "millwarden.db") },
     server: { ...base.server, port: num(values.port, "port", base.server.port) },
-    sources: base.sources.map((s) => ({ ...s, url: broker.url })),
   };
   const daemon = await Daemon.start({ config: cfg, log });
-  const abort = new AbortController();
-  const sim = runSimulator({
+  process.stdout.write(
+    `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
+      `  ${plant.describe}\n  database              ${cfg.storage.path}\n  dashboard             ${daemon.url}\n` +
+      `\n${ADVISORY_ONLY}\nPress Ctrl-C to stop.\n\n`,
+  );
+  await waitForSignal();
+  log.info("stopping the demo");
+  abort.abort();
+  await plant.stopped;
+  await daemon.stop();
+  await plant.close();
+  return 0;
+}
+
+interface DemoPlant {
+  config: MillwardenConfig;
+  describe: string;
+  stopped: Promise<unknown>;
+  close(): Promise<void>;
+}
+
+/** The simulator publishes over MQTT into a broker inside this process. */
+async function demoOverMqtt(base: MillwardenConfig, values: { scenario: string; "broker-port"?: string }, speed: number, signal: AbortSignal, log: ReturnType<typeof makeLogger>): Promise<DemoPlant> {
+  const broker = await startEmbeddedBroker(num(values["broker-port"], "broker-port", DEMO_BROKER_PORT));
+  const stopped = runSimulator({
     scenario: values.scenario,
     mqttUrl: broker.url,
     topicPrefix: "tarnholm/cg2",
     speed,
     startTimeMs: Date.now(),
     loop: true,
-    signal: abort.signal,
+    signal,
     log: (m) => log.info(m),
   }).catch((e: Error) => log.error(`simulator stopped: ${e.message}`));
-  process.stdout.write(
-    `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
-      `  embedded MQTT broker  ${broker.url}\n  database              ${cfg.storage.path}\n  dashboard             ${daemon.url}\n` +
-      `\n${ADVISORY_ONLY}\nPress Ctrl-C to stop.\n\n`,
-  );
-  await waitForSignal();
-  log.info("stopping the demo");
-  abort.abort();
-  await sim;
-  await daemon.stop();
-  await broker.close();
-  return 0;
+  return {
+    config: { ...base, sources: base.sources.map((s) => (s.kind === "mqtt" ? { ...s, url: broker.url } : s)) },
+    describe: `embedded MQTT broker  ${broker.url}`,
+    stopped,
+    close: () => broker.close(),
+  };
+}
+
+/**
+ * The simulator serves the plant over OPC UA; the daemon connects with SignAndEncrypt
+ * (Basic256Sha256). Each side trusts the other's certificate explicitly, as on a plant.
+ */
+async function demoOverOpcUa(base: MillwardenConfig, values: { scenario: string; data: string }, speed: number, signal: AbortSignal, log: ReturnType<typeof makeLogger>): Promise<DemoPlant> {
+  const { startSimOpcUaServer, simNodeId } = await import("../sim/opcua-server.js");
+  const { ensureOwnCertificate, trustServerCertificate } = await import("../sources/opcua-pki.js");
+  const clientPki = resolve(values.data, "pki");
+  const srv = await startSimOpcUaServer({
+    port: 0,
+    scenario: values.scenario,
+    speed,
+    startTimeMs: Date.now(),
+    loop: true,
+    signal,
+    pkiFolder: resolve(values.data, "sim-pki"),
+    log: (m) => log.info(`OPC UA simulator: ${m}`),
+  });
+  const own = await ensureOwnCertificate(clientPki);
+  await trustServerCertificate(clientPki, srv.certificateFile);
+  await srv.trustClientCertificate(own.certificateFile);
+  // The server changes each tag once per simulated second: sample as fast, so a faster demo
+  // is not thinned out (on a plant, sampling follows the instrument, not a speed factor).
+  const samplingIntervalMs = Math.max(20, Math.round(1000 / speed));
+  const publishingIntervalMs = Math.max(100, Math.min(1000, samplingIntervalMs * 10));
+  const queueSize = Math.ceil(publishingIntervalMs / samplingIntervalMs) + 10;
+  const source = {
+    id: "plant-opcua",
+    kind: "opcua" as const,
+    endpointUrl: srv.endpointUrl,
+    securityMode: "SignAndEncrypt" as const,
+    securityPolicy: "Basic256Sha256" as const,
+    pkiFolder: clientPki,
+    trustUnknownServerCertificates: false,
+    publishingIntervalMs,
+    samplingIntervalMs,
+    maxClockSkewS: 30,
+  };
+  return {
+    config: {
+      ...base,
+      sources: [source],
+      signals: base.signals.map(({ topic: _topic, ...s }) => ({ ...s, source: source.id, nodeId: simNodeId(s.tag), samplingIntervalMs, queueSize })),
+    },
+    describe: `OPC UA simulator      ${srv.endpointUrl} (SignAndEncrypt, Basic256Sha256)`,
+    stopped: srv.done,
+    close: () => srv.close(),
+  };
+}
+
+async function cmdPki(args: string[]): Promise<number> {
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { pki: { type: "string", default: "data/pki" } } });
+  const [verb, file] = positionals;
+  const pki = await import("../sources/opcua-pki.js");
+  const show = (c: { status: string; subject: string; applicationUri: string | null; thumbprint: string; notAfter: string; file: string }) =>
+    `${c.status.padEnd(8)} ${c.subject}  uri ${c.applicationUri ?? "-"}  thumbprint ${c.thumbprint}  valid to ${c.notAfter}\n         ${c.file}`;
+  if (verb === "list") {
+    const certs = pki.listServerCertificates(values.pki);
+    process.stdout.write(certs.length ? certs.map(show).join("\n") + "\n" : `no server certificates under ${values.pki} yet (a server's certificate lands in rejected/ at the first connection)\n`);
+    return 0;
+  }
+  if (verb === "show") {
+    const own = await pki.ensureOwnCertificate(values.pki);
+    process.stdout.write(`${show(own.info)}\ngive ${own.certificateFile} to the server's administrator to trust\n`);
+    return 0;
+  }
+  if (verb === "trust") {
+    if (!file) throw new UsageError("pki trust needs the certificate file (for example one listed under rejected/ by `millwarden pki list`)");
+    const c = await pki.trustServerCertificate(values.pki, file);
+    process.stdout.write(`trusted: ${show(c)}\ncompare the thumbprint with the one the server's administrator reads off the server\n`);
+    return 0;
+  }
+  throw new UsageError(`pki expects list, show or trust; found ${verb === undefined ? "nothing" : `"${verb}"`}`);
 }
 
 function cmdCheck(args: string[]): number {
@@ -161,6 +257,8 @@ export async function main(argv: string[]): Promise<number> {
         return cmdCheck(rest);
       case "simulate":
         return await cmdSimulate(rest);
+      case "pki":
+        return await cmdPki(rest);
       case undefined:
       case "help":
       case "--help":

@@ -113,6 +113,7 @@ const SIM_UNITS: Record<string, { code: string; symbol: string; description: str
 /** Instrument ranges of the simulated transmitters (our own choice for the invented plant). */
 function euRange(tag: string, unit: string): { low: number; high: number } {
   if (tag.startsWith("HG2-TT")) return { low: 0, high: 800 };
+  if (tag === "VM2-TT-101") return { low: 0, high: 450 }; // mill inlet: hot gas
   if (/-AT-\d*5$/.test(tag) && unit === "% vol") return { low: 0, high: 50 }; // H2O analyser
   switch (unit) {
     case "°C": return { low: 0, high: 200 };
@@ -121,7 +122,7 @@ function euRange(tag: string, unit: string): { low: number; high: number } {
     case "ppm": return { low: 0, high: 2000 };
     case "kW": return { low: 0, high: 3000 };
     case "t/h": return { low: 0, high: 50 };
-    case "Nm³/h": return { low: 0, high: 5000 };
+    case "Nm³/h": return { low: 0, high: 20000 };
     default: return { low: 0, high: 100 };
   }
 }

@@ -23,6 +23,9 @@
 // (a cable pulled without the socket noticing).
 import {
   AttributeIds,
+  DataChangeFilter,
+  DataChangeTrigger,
+  DeadbandType,
   MessageSecurityMode,
   OPCUAClient,
   SecurityPolicy,
@@ -317,10 +320,13 @@ export class OpcUaSource implements Source {
 
     for (const g of this.groups) {
       const items: ReadValueIdOptions[] = g.decoders.map((d) => ({ nodeId: d.signal.nodeId!, attributeId: AttributeIds.Value }));
-      // No deadband (filter null): a deadband can hide a slow CO rise.
+      // No deadband: a deadband can hide a slow CO rise. The trigger includes the source
+      // timestamp, so a value that holds steady (a stopped drive reading 0 kW) still reports
+      // at each scan and is not mistaken for stale data.
+      const filter = new DataChangeFilter({ trigger: DataChangeTrigger.StatusValueTimestamp, deadbandType: DeadbandType.None, deadbandValue: 0 });
       const group: ClientMonitoredItemGroup = await sub.monitorItems(
         items,
-        { samplingInterval: g.samplingIntervalMs, queueSize: g.queueSize, discardOldest: true, filter: null },
+        { samplingInterval: g.samplingIntervalMs, queueSize: g.queueSize, discardOldest: true, filter },
         TimestampsToReturn.Both,
       );
       group.on("changed", (_item, dv, index) => this.onChange(g.decoders[index], dv));
@@ -345,7 +351,20 @@ export class OpcUaSource implements Source {
     const r = d.decode(dv, this.deps.now());
     if (r.reject) this.count(d, r.reject, r.detail ?? r.reject);
     else this.samples++;
-    this.onSample?.(r.sample);
+    // One publish response carries several values per item, item after item. Hand them on in
+    // source-time order across items, so that a consumer following the data's own clock never
+    // sees one item run ahead of the others (and take them for stale).
+    this.batch.push(r.sample);
+    if (this.batch.length === 1) setImmediate(() => this.flushBatch());
+  }
+
+  private batch: Sample[] = [];
+
+  private flushBatch() {
+    const out = this.batch;
+    this.batch = [];
+    out.sort((a, b) => a.sourceTimeMs - b.sourceTimeMs);
+    for (const s of out) this.onSample?.(s);
   }
 
   private count(d: OpcUaDecoder, reason: string, detail: string) {

@@ -44,6 +44,8 @@ class SeriesCursor {
   private lastTLastMs = Number.NEGATIVE_INFINITY;
   private chunksDone = false;
   private ri = 0;
+  /** The last time given out: a signal's lines strictly ascend, so none can come twice (a chunk rewritten by a seal meanwhile). */
+  private lastT = Number.NEGATIVE_INFINITY;
   t = 0;
   v = 0;
   q = 0;
@@ -59,6 +61,7 @@ class SeriesCursor {
 
   /** Moves to the next point; false at the end. */
   advance(): boolean {
+    while (this.ri < this.recent.t.length && (this.recent.t[this.ri] as number) <= this.lastT) this.ri++;
     const ct = this.peekChunkTime();
     const rt = this.ri < this.recent.t.length ? (this.recent.t[this.ri] as number) : Number.POSITIVE_INFINITY;
     if (ct === Number.POSITIVE_INFINITY && rt === Number.POSITIVE_INFINITY) return false;
@@ -75,13 +78,15 @@ class SeriesCursor {
       this.q = c.quality[this.ci] as number;
       this.ci++;
     }
+    this.lastT = this.t;
     return true;
   }
 
   private peekChunkTime(): number {
     for (;;) {
       if (this.chunk !== null) {
-        while (this.ci < this.chunk.timesMs.length && (this.chunk.timesMs[this.ci] as number) < this.fromMs) this.ci++;
+        const c = this.chunk.timesMs;
+        while (this.ci < c.length && ((c[this.ci] as number) < this.fromMs || (c[this.ci] as number) <= this.lastT)) this.ci++;
         if (this.ci < this.chunk.timesMs.length) {
           const t = this.chunk.timesMs[this.ci] as number;
           return t <= this.toMs ? t : Number.POSITIVE_INFINITY;

@@ -7,6 +7,8 @@
 //                                                  seal ───────┴──▶ chunks (Gorilla, per series)
 //                                                                 + rollups_1m (min/max/sum/count/last)
 //                                                  retention, disk budget, incremental vacuum
+//   reads: samples() / derived() merge chunks and unsealed rows; trend() picks raw points or
+//   roll-ups by span and reduces with LTTB; exportCsv() streams the history exchange format.
 //
 // Contracts:
 // - append* never blocks and never does I/O. Validation errors (a caller bug) throw at once, so
@@ -181,7 +183,7 @@ export interface HistorianTrend {
   points: HistorianTrendPoint[];
 }
 
-/** A sealed 1-minute roll-up. mean = sum / count when count > 0. */
+/** A sealed 1-minute roll-up. mean = sum / count when count > 0. REAL columns: a −0 comes back as 0. */
 export interface RollupPoint {
   tMinuteMs: number;
   min: number | null;
@@ -239,6 +241,8 @@ const MAX_ABS_TIME_MS = 8.64e15;
 const DAY_MS = 86_400_000;
 /** Rows of one seal transaction at most. */
 const MAX_SEAL_ROWS = 500_000;
+/** After a failed seal forced by maxRecentRows, flush() tries again after this long. */
+const OVERFLOW_RETRY_MS = 10_000;
 
 const DEFAULTS = {
   synchronous: "NORMAL",
@@ -307,6 +311,7 @@ export class Historian {
   private dataBytes: number | null = null;
   private fileBytes: number | null = null;
   private overBudget = false;
+  private overflowRetryAtMs = Number.NEGATIVE_INFINITY;
   private autoVacuum: HistorianStats["autoVacuum"];
 
   private constructor(db: Db, path: string, o: Opts) {
@@ -890,10 +895,14 @@ export class Historian {
     }
   }
 
-  /** flush() found too many unsealed rows: seal by the data's own clock. Failures degrade like maintain(). */
+  /**
+   * flush() found too many unsealed rows: seal by the data's own clock. Failures degrade like
+   * maintain(), and the next try waits OVERFLOW_RETRY_MS, so that a failing seal does not run
+   * at every flush.
+   */
   private sealOverflow(): void {
     const newest = this.recent.newestMs();
-    if (newest === null) return;
+    if (newest === null || this.now() < this.overflowRetryAtMs) return;
     try {
       this.sealBefore(minuteOf(newest - this.o.sealAgeS * 1000));
       this.maintainError = null;
@@ -901,6 +910,7 @@ export class Historian {
       this.failedMaintains++;
       this.maintainError = describe(err);
       this.lastError = this.maintainError;
+      this.overflowRetryAtMs = this.now() + OVERFLOW_RETRY_MS;
     }
   }
 
