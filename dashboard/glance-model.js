@@ -71,11 +71,15 @@ export const INERTING_WORDS = {
   inert: "inert",
   marginal: "marginal",
   "not-inert": "not inert",
+  purging: "purging",
   unknown: "unknown",
 };
 
-/** The abnormal inerting states borrow the tier look: marginal as caution, not inert as warning. */
-export const INERTING_TIER = { marginal: "caution", "not-inert": "warning" };
+/**
+ * The abnormal inerting states borrow the tier look: marginal as caution, not inert as
+ * warning; purging (O2 still above its limit, inert gas flowing) as caution.
+ */
+export const INERTING_TIER = { marginal: "caution", purging: "caution", "not-inert": "warning" };
 
 /** O2 scale of the margin bar: 0 to air (21 % vol), wide enough for any reading. */
 export const O2_SCALE_MAX_PCT = 21;
