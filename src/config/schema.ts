@@ -145,8 +145,20 @@ export const configSchema = z.strictObject({
   /** wall: ticks from the box's clock (live); data: ticks from the samples' own time (replay, accelerated simulation). */
   clock: z.enum(["wall", "data"]).default("wall"),
   storage: z
-    .strictObject({ path: z.string().min(1).default("data/millwarden.db"), synchronous: z.enum(["NORMAL", "FULL"]).default("NORMAL") })
-    .default({ path: "data/millwarden.db", synchronous: "NORMAL" }),
+    .strictObject({
+      path: z.string().min(1).default("data/millwarden.db"),
+      /** NORMAL: a power cut may lose the last commits, never the file; FULL: an fsync per batch. */
+      synchronous: z.enum(["NORMAL", "FULL"]).default("NORMAL"),
+      /** Raw samples are kept this long (compressed after a few minutes). */
+      rawRetentionDays: positive.default(30),
+      /** 1-minute roll-ups (min, max, mean, count, last) are kept this long. */
+      rollupRetentionDays: positive.default(365),
+      /** Recent rows are sealed into compressed chunks this often. */
+      sealIntervalS: positive.default(300),
+      /** Disk budget: the oldest expired data is pruned first to stay under it. */
+      maxDatabaseBytes: z.number().int().positive().optional(),
+    })
+    .default({ path: "data/millwarden.db", synchronous: "NORMAL", rawRetentionDays: 30, rollupRetentionDays: 365, sealIntervalS: 300 }),
   server: z
     .strictObject({ host: z.string().min(1).default("127.0.0.1"), port: z.number().int().min(0).max(65535).default(8480) })
     .default({ host: "127.0.0.1", port: 8480 }),

@@ -21,6 +21,9 @@ import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/dep
 import { startServer } from "../server/listen.js";
 import type { Logger } from "./log.js";
 
+/** How often the historian seals, prunes and reclaims space. */
+const MAINTAIN_EVERY_MS = 60_000;
+
 export const DASHBOARD_DIR = resolve(dirname(fileURLToPath(import.meta.url)), "../../dashboard");
 
 export interface DaemonOptions {
@@ -46,6 +49,8 @@ export class Daemon {
   private readonly now: () => number;
   private readonly startedAtMs: number;
   private lastTickMs = 0;
+  private lastMaintainMs: number | null = null;
+  private maintainTimer: NodeJS.Timeout | null = null;
   private readonly rejectedByCore: Record<string, number> = {};
 
   private constructor(private readonly opts: DaemonOptions) {
@@ -53,7 +58,15 @@ export class Daemon {
     this.now = opts.now ?? Date.now;
     this.startedAtMs = this.now();
     this.engine = new Engine(cfg);
-    this.historian = Historian.open({ path: resolve(opts.baseDir ?? process.cwd(), cfg.storage.path), synchronous: cfg.storage.synchronous });
+    const st = cfg.storage;
+    this.historian = Historian.open({
+      path: resolve(opts.baseDir ?? process.cwd(), st.path),
+      synchronous: st.synchronous,
+      rawRetentionDays: st.rawRetentionDays,
+      rollupRetentionDays: st.rollupRetentionDays,
+      sealIntervalS: st.sealIntervalS,
+      ...(st.maxDatabaseBytes !== undefined ? { maxDatabaseBytes: st.maxDatabaseBytes } : {}),
+    });
     this.feed = new ChangeFeed(() => this.engine.snapshot());
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
   }
@@ -84,6 +97,8 @@ export class Daemon {
     if (!this.dataClock) {
       this.tick(this.now());
       this.timer = setInterval(() => this.tick(this.now()), 1000);
+      this.maintainTimer = setInterval(() => this.maintain(this.now()), MAINTAIN_EVERY_MS);
+      this.maintainTimer.unref();
     }
     for (const s of this.sources) await s.start((sample) => this.ingest(sample));
     if (this.opts.serve !== false) {
@@ -117,6 +132,16 @@ export class Daemon {
     this.lastTickMs = nowMs;
     const events = this.engine.tick(nowMs);
     this.record(events);
+    // On the data clock, retention and sealing follow the data's own time (a replay of last
+    // month must not be pruned as if it were old); live, a timer does it.
+    if (this.dataClock && (this.lastMaintainMs === null || nowMs - this.lastMaintainMs >= MAINTAIN_EVERY_MS)) this.maintain(nowMs);
+  }
+
+  /** Seal recent rows into chunks, apply retention and the disk budget (never throws). */
+  maintain(nowMs: number): void {
+    this.lastMaintainMs = nowMs;
+    const r = this.historian.maintain(nowMs);
+    if (r.error) this.opts.log.warn(`historian maintenance: ${r.error}`);
   }
 
   private record(events: CoreEvent[]): void {
@@ -153,7 +178,6 @@ export class Daemon {
 
   appDeps(): AppDeps {
     const series = new Set(this.engine.seriesNames());
-    const signalIds = new Set(this.opts.config.signals.map((s) => s.id));
     return {
       getState: () => this.engine.snapshot(),
       health: () => this.health(),
@@ -168,11 +192,10 @@ export class Daemon {
         this.record(r.events);
         return { ok: true, advisory: r.advisory ?? this.engine.currentAdvisories().find((a) => a.id === advisoryId)! };
       },
-      trend: (name, fromMs, toMs) => {
+      trend: (name, fromMs, toMs, points) => {
         if (!series.has(name)) throw new UnknownSeriesError(name);
         this.historian.flush();
-        if (signalIds.has(name)) return this.historian.samples(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.quality }));
-        return this.historian.derived(name, fromMs, toMs).map((p) => ({ tMs: p.tMs, value: p.value, quality: p.status }));
+        return this.historian.trend(name, fromMs, toMs, points).points;
       },
       subscribe: (l) => this.feed.subscribe(l),
       dashboardDir: DASHBOARD_DIR,
@@ -181,7 +204,8 @@ export class Daemon {
 
   async stop(): Promise<void> {
     if (this.timer) clearInterval(this.timer);
-    this.timer = null;
+    if (this.maintainTimer) clearInterval(this.maintainTimer);
+    this.timer = this.maintainTimer = null;
     for (const s of this.sources) await s.stop().catch(() => undefined);
     this.feed.stop();
     if (this.server) await this.server.close();

@@ -6,7 +6,7 @@
 //   GET  /api/state                deps.getState()
 //   GET  /api/advisories?limit=N   deps.advisories()
 //   POST /api/advisories/:id/ack   deps.acknowledge()     404 / 409 passed through
-//   GET  /api/trend?signal&from&to deps.trend()
+//   GET  /api/trend?signal&from&to&points deps.trend()
 //   WS   /api/live                 snapshot, then deps.subscribe() messages (live.ts)
 //   GET  /*                        files from deps.dashboardDir
 import { existsSync } from "node:fs";
@@ -30,7 +30,8 @@ export interface TrendResponse {
   signal: string;
   fromMs: number;
   toMs: number;
-  points: [number, number | null, string][];
+  /** [tMs, value, quality], plus [min, max] when a point stands for a bucket of samples. */
+  points: ([number, number | null, string] | [number, number | null, string, number | null, number | null])[];
 }
 
 type Query = Record<string, string | string[] | undefined>;
@@ -165,10 +166,15 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
   });
 
   app.get("/api/trend", async (request): Promise<TrendResponse> => {
-    const { signal, fromMs, toMs } = parseTrendQuery(request.query as Query, () => deps.getState().nowMs);
+    const { signal, fromMs, toMs, points: wanted } = parseTrendQuery(request.query as Query, () => deps.getState().nowMs);
     try {
-      const points = deps.trend(signal, fromMs, toMs);
-      return { signal, fromMs, toMs, points: points.map((p) => [p.tMs, p.value, p.quality]) };
+      const points = deps.trend(signal, fromMs, toMs, wanted);
+      return {
+        signal,
+        fromMs,
+        toMs,
+        points: points.map((p) => (p.min === undefined && p.max === undefined ? [p.tMs, p.value, p.quality] : [p.tMs, p.value, p.quality, p.min ?? null, p.max ?? null])),
+      };
     } catch (err) {
       if (err instanceof UnknownSeriesError) throw new ApiError("UNKNOWN_SERIES", err.message);
       throw err;

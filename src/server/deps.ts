@@ -7,6 +7,9 @@ export interface TrendPoint {
   tMs: number;
   value: number | null;
   quality: Quality | "ok" | "unknown";
+  /** The band a downsampled point stands for. */
+  min?: number | null;
+  max?: number | null;
 }
 
 export interface HealthView {
@@ -28,8 +31,8 @@ export interface AppDeps {
   /** Current advisories, and the latest transitions from the historian (newest first). */
   advisories(opts: { limit: number }): { active: AdvisoryView[]; history: AdvisoryTransition[] };
   acknowledge(advisoryId: string, by: string, note?: string): AckResult;
-  /** Raw signal ids and derived keys both; throws UnknownSeriesError for anything else. */
-  trend(series: string, fromMs: number, toMs: number): TrendPoint[];
+  /** Raw signal ids and derived keys both, about `points` points; throws UnknownSeriesError for anything else. */
+  trend(series: string, fromMs: number, toMs: number, points: number): TrendPoint[];
   /** Register for live messages; returns the unsubscribe function. */
   subscribe(listener: (msg: LiveMessage) => void): () => void;
   /** Folder with the browser side (index.html and its assets). */

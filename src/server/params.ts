@@ -108,14 +108,19 @@ export interface TrendQuery {
   signal: string;
   fromMs: number;
   toMs: number;
+  /** About how many points to return (the historian downsamples, keeping minima and maxima). */
+  points: number;
 }
+
+export const TREND_DEFAULT_POINTS = 1000;
+export const TREND_MAX_POINTS = 10_000;
 
 /**
  * signal is required. "to" defaults to now, "from" to one hour before "to". now is
  * the daemon's time (never the wall clock), asked for only when "to" is missing.
  */
 export function parseTrendQuery(query: Record<string, QueryValue>, nowMs: () => number): TrendQuery {
-  rejectUnknown(query, ["signal", "from", "to"]);
+  rejectUnknown(query, ["signal", "from", "to", "points"]);
   const signal = single("signal", query["signal"]);
   if (signal === undefined || signal.trim() === "") {
     throw new ApiError(
@@ -146,7 +151,15 @@ export function parseTrendQuery(query: Record<string, QueryValue>, nowMs: () => 
       `query parameters "from" and "to": expected a span of at most 31 days, found ${days} days`,
     );
   }
-  return { signal, fromMs, toMs };
+  const pointsText = single("points", query["points"]);
+  let points = TREND_DEFAULT_POINTS;
+  if (pointsText !== undefined) {
+    points = Number(pointsText);
+    if (!/^\d+$/.test(pointsText) || points < 3 || points > TREND_MAX_POINTS) {
+      throw new ApiError("BAD_QUERY", `query parameter "points": expected a whole number from 3 to ${TREND_MAX_POINTS}, found ${describeFound(pointsText)}`);
+    }
+  }
+  return { signal, fromMs, toMs, points };
 }
 
 export interface AckBody {

@@ -6,6 +6,7 @@ import mqtt, { type MqttClient } from "mqtt";
 import type { SignalConfig, SourceConfig } from "../config/schema.js";
 import type { Sample } from "../core/types.js";
 import { makeDecoder, parseBody, type SignalDecoder } from "./decode.js";
+import { RateLimitedLog } from "./rate-limited-log.js";
 
 export interface SourceStats {
   id: string;
@@ -33,7 +34,6 @@ export interface SourceDeps {
   log: (level: "info" | "warn" | "error", msg: string) => void;
 }
 
-const LOG_EVERY_MS = 60_000;
 
 export class MqttSource implements Source {
   readonly id: string;
@@ -44,7 +44,7 @@ export class MqttSource implements Source {
   private rejected = 0;
   private readonly rejectedBy: Record<string, number> = {};
   private lastError: string | null = null;
-  private readonly lastLog = new Map<string, number>();
+  private readonly limitedLog: RateLimitedLog;
   private markReady!: () => void;
   private readonly ready = new Promise<void>((ok) => (this.markReady = ok));
 
@@ -54,6 +54,7 @@ export class MqttSource implements Source {
     private readonly deps: SourceDeps,
   ) {
     this.id = cfg.id;
+    this.limitedLog = new RateLimitedLog(deps);
     for (const s of signals) {
       if (s.source !== cfg.id || !s.topic) continue;
       const list = this.byTopic.get(s.topic) ?? [];
@@ -96,11 +97,7 @@ export class MqttSource implements Source {
   }
 
   private rateLimitedLog(key: string, level: "warn" | "error", msg: string) {
-    const now = this.deps.now();
-    const last = this.lastLog.get(key);
-    if (last !== undefined && now - last < LOG_EVERY_MS) return;
-    this.lastLog.set(key, now);
-    this.deps.log(level, msg);
+    this.limitedLog.log(key, level, msg);
   }
 
   private onMessage(topic: string, payload: Buffer, onSample: (s: Sample) => void) {

@@ -49,6 +49,7 @@ import type { Source, SourceDeps, SourceStats } from "./mqtt.js";
 import { makeOpcUaDecoder, type OpcUaDecoder } from "./opcua-decode.js";
 import { ensureOwnCertificate, openCertificateManager } from "./opcua-pki.js";
 import { unitMismatch } from "./opcua-units.js";
+import { RateLimitedLog } from "./rate-limited-log.js";
 
 /** The only services the source uses: reading and subscribing. */
 export interface ReadOnlySession {
@@ -90,7 +91,6 @@ interface Group {
   decoders: OpcUaDecoder[];
 }
 
-const LOG_EVERY_MS = 60_000;
 const BACKOFF_MIN_MS = 1000;
 const BACKOFF_MAX_MS = 30_000;
 /** The server keeps the session and subscription (with queued values) this long without us. */
@@ -122,7 +122,7 @@ export class OpcUaSource implements Source {
   private unitWarnings: string[] = [];
   private reconnections = 0;
   private queueOverflows = 0;
-  private readonly lastLog = new Map<string, number>();
+  private readonly limitedLog: RateLimitedLog;
   private lastActivity = 0;
   private keepAliveMs = KEEPALIVE_TARGET_MS;
   private watchdog: NodeJS.Timeout | null = null;
@@ -135,6 +135,7 @@ export class OpcUaSource implements Source {
     private readonly deps: OpcUaSourceDeps,
   ) {
     this.id = cfg.id;
+    this.limitedLog = new RateLimitedLog(deps);
     this.pkiFolder = resolve(deps.baseDir ?? process.cwd(), cfg.pkiFolder);
     const byParams = new Map<string, Group>();
     for (const s of signals) {
@@ -459,11 +460,7 @@ export class OpcUaSource implements Source {
   }
 
   private rateLimitedLog(key: string, level: "warn" | "error", msg: string) {
-    const now = this.deps.now();
-    const last = this.lastLog.get(key);
-    if (last !== undefined && now - last < LOG_EVERY_MS) return;
-    this.lastLog.set(key, now);
-    this.deps.log(level, msg);
+    this.limitedLog.log(key, level, msg);
   }
 }
 

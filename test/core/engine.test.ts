@@ -166,11 +166,11 @@ describe("CO gradient and advisories", () => {
   });
 
   it("values outside the configured range are bad, not used", () => {
-    engine.ingest(sample("bf2.outlet.h2o", 75, T0)); // range 0..60
+    engine.ingest(sample("bf2.outlet.h2o", 75, T0)); // range 0..50 % vol
     engine.tick(T0 + 100);
     const s = engine.snapshot().signals.find((x) => x.id === "bf2.outlet.h2o")!;
     expect(s.quality).toBe("bad");
-    expect(s.qualityReason).toMatch(/out of range 0\.\.60/);
+    expect(s.qualityReason).toMatch(/out of range 0\.\.50/);
   });
 
   it("is deterministic: the same inputs give the same events", () => {

@@ -29,7 +29,7 @@ export function demoConfigFor(brokerUrl: string, topicPrefix: string, dataDir: s
   return {
     ...base,
     clock: "data",
-    storage: { path: join(dataDir, "millwarden.db"), synchronous: "NORMAL" },
+    storage: { ...base.storage, path: join(dataDir, "millwarden.db") },
     server: { host: "127.0.0.1", port: 0 },
     sources: base.sources.map((s) => ({ ...s, url: brokerUrl, clientId: `mw-test-${process.pid}-${Math.random().toString(16).slice(2, 10)}` })),
     signals: base.signals.map((s) => ({ ...s, topic: s.topic!.replace(DEMO_PREFIX, `${topicPrefix}/`) })),

@@ -28,7 +28,7 @@ async function runThrough(brokerUrl: string, scenario: string) {
     };
     const adv = await get<{ active: unknown[]; history: AdvisoryTransition[] }>("/api/advisories?limit=1000");
     const state = await get<PlantState>("/api/state");
-    const trend = await get<{ points: unknown[] }>(`/api/trend?signal=bf2.outlet.co&from=${START}&to=${lastFrameMs}`);
+    const trend = await get<{ points: unknown[] }>(`/api/trend?signal=bf2.outlet.co&from=${START}&to=${lastFrameMs}&points=10000`);
     return { onsetMs: sc.onsetS === null ? null : START + sc.onsetS * 1000, transitions: adv.history.slice().reverse(), state, trendPoints: trend.points.length, durationS: sc.durationS };
   } finally {
     await daemon.stop();

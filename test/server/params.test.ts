@@ -84,7 +84,14 @@ describe("parseTrendQuery", () => {
 
   // Defaults from the API contract (brief for GET /api/trend): the last hour before now.
   it("defaults to the hour before the daemon's now", () => {
-    expect(parseTrendQuery({ signal: "vm2-co" }, () => now)).toEqual({ signal: "vm2-co", fromMs: now - HOUR, toMs: now });
+    expect(parseTrendQuery({ signal: "vm2-co" }, () => now)).toEqual({ signal: "vm2-co", fromMs: now - HOUR, toMs: now, points: 1000 });
+  });
+
+  it("takes a number of points from 3 to 10,000", () => {
+    expect(parseTrendQuery({ signal: "x", points: "250" }, () => now).points).toBe(250);
+    for (const bad of ["2", "10001", "1.5", "many", "-4"]) {
+      expect(() => parseTrendQuery({ signal: "x", points: bad }, () => now)).toThrow(/"points": expected a whole number from 3 to 10000/);
+    }
   });
 
   it("asks for now only when 'to' is missing", () => {
@@ -97,7 +104,7 @@ describe("parseTrendQuery", () => {
     expect(asked).toBe(0);
     const q = parseTrendQuery({ signal: "x", from: String(now - 3 * HOUR) }, clock);
     expect(asked).toBe(1);
-    expect(q).toEqual({ signal: "x", fromMs: now - 3 * HOUR, toMs: now });
+    expect(q).toEqual({ signal: "x", fromMs: now - 3 * HOUR, toMs: now, points: 1000 });
   });
 
   it("with only 'to', starts one hour before it", () => {
