@@ -6,7 +6,6 @@
 //                    └─▶ acid dew points (coldest temperature)
 import {
   PLANT_WIDE_DEW_POINT_ID,
-  type DewPointConfig,
   type DewPointFamilyConfig,
 } from "../config/sections/dew-point.js";
 import type { Monitor, TickContext } from "../core/calculator.js";

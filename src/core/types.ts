@@ -137,9 +137,8 @@ export interface SignalView {
 export type { InertingView, UnitView } from "../analytics/oxygen-monitor.js";
 export type { DewPointView } from "../analytics/dew-point-monitor.js";
 export type { CoPointView } from "../analytics/co-monitor.js";
-import type { UnitView } from "../analytics/oxygen-monitor.js";
-import type { DewPointView, DewPointMonitor } from "../analytics/dew-point-monitor.js";
-import type { CoPointView, CoMonitor } from "../analytics/co-monitor.js";
+import type { DewPointMonitor } from "../analytics/dew-point-monitor.js";
+import type { CoMonitor } from "../analytics/co-monitor.js";
 import type { OxygenMonitor } from "../analytics/oxygen-monitor.js";
 export type { PhaseView } from "../analytics/phase-monitor.js";
 export type { AnalyserView, AnalyserSignalView } from "../analytics/health-monitor.js";

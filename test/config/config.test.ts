@@ -3,7 +3,8 @@
 import { readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { ConfigError, loadConfig, parseConfig } from "../../src/config/load.js";
+import { loadConfig, parseConfig } from "../../src/config/load.js";
+import { problemsOf, SITE_AND_SOURCE } from "./helpers.js";
 
 const CONFIG_DIR = join(import.meta.dirname, "../../config");
 const configFiles = readdirSync(CONFIG_DIR).filter((f) => /\.ya?ml$/.test(f));
@@ -21,25 +22,8 @@ describe("every example config in config/", () => {
   }
 });
 
-function problemsOf(text: string) {
-  try {
-    parseConfig(text, "plant.yaml");
-  } catch (e) {
-    expect(e).toBeInstanceOf(ConfigError);
-    return (e as ConfigError).problems;
-  }
-  throw new Error("expected a ConfigError");
-}
 
-const minimal = `site:
-  name: Testfield
-  plant: Line 1
-  barometricPressureHPa: 1013
-sources:
-  - id: m
-    kind: mqtt
-    url: mqtt://127.0.0.1:18831
-signals:
+const minimal = `${SITE_AND_SOURCE}signals:
   - { id: a.temp, name: Gas temperature, tag: TT-1, source: m, topic: t/1, unit: degC, expectedPeriodS: 1 }
   - { id: a.h2o, name: Moisture, tag: AT-2, source: m, topic: t/2, unit: pctVol, expectedPeriodS: 1 }
 units:

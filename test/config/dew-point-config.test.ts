@@ -2,18 +2,11 @@
 // and every mistake is reported at file:line with the key, what was expected and what was found.
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { ConfigError, loadConfig, parseConfig, type ConfigProblem } from "../../src/config/load.js";
+import { loadConfig, parseConfig } from "../../src/config/load.js";
 import { derivedQuantities } from "../../src/core/quantities.js";
+import { problemsOf, lineOf, SITE_AND_SOURCE } from "./helpers.js";
 
-const base = `site:
-  name: Testfield
-  plant: Line 1
-  barometricPressureHPa: 1013
-sources:
-  - id: m
-    kind: mqtt
-    url: mqtt://127.0.0.1:18831
-signals:
+const base = `${SITE_AND_SOURCE}signals:
   - { id: gas.temp, name: Gas temperature, tag: TT-1, source: m, topic: t/1, unit: degC, expectedPeriodS: 1 }
   - { id: wall.temp, name: Wall temperature, tag: TT-2, source: m, topic: t/2, unit: degC, expectedPeriodS: 1 }
   - { id: h2o, name: H2O, tag: AT-3, source: m, topic: t/3, unit: pctVol, expectedPeriodS: 1 }
@@ -56,22 +49,8 @@ const acid = `acidDewPoints:
 
 const valid = base + sources + dew + acid;
 
-function problemsOf(text: string): ConfigProblem[] {
-  try {
-    parseConfig(text, "plant.yaml");
-  } catch (e) {
-    expect(e).toBeInstanceOf(ConfigError);
-    return (e as ConfigError).problems;
-  }
-  throw new Error("expected a ConfigError");
-}
 
 /** 1-based line of the first line containing `marker`. */
-function lineOf(text: string, marker: string): number {
-  const i = text.split("\n").findIndex((l) => l.includes(marker));
-  if (i < 0) throw new Error(`marker "${marker}" not in the text`);
-  return i + 1;
-}
 
 /** The config with `from` replaced by `to` (which must occur exactly once). */
 function edit(from: string, to: string, text = valid): string {

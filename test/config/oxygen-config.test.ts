@@ -3,18 +3,11 @@
 // what was expected and what was found.
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { ConfigError, loadConfig, parseConfig } from "../../src/config/load.js";
+import { loadConfig, parseConfig } from "../../src/config/load.js";
 import { derivedQuantities } from "../../src/core/quantities.js";
+import { problemsOf, lineOf, SITE_AND_SOURCE } from "./helpers.js";
 
-const head = `site:
-  name: Testfield
-  plant: Line 1
-  barometricPressureHPa: 1013
-sources:
-  - id: m
-    kind: mqtt
-    url: mqtt://127.0.0.1:18831
-signals:
+const head = `${SITE_AND_SOURCE}signals:
   - { id: a.o2, name: O2 A, tag: AT-1A, source: m, topic: t/1, unit: pctVol, basis: dry, expectedPeriodS: 1 }
   - { id: b.o2, name: O2 B, tag: AT-1B, source: m, topic: t/2, unit: pctVol, basis: dry, expectedPeriodS: 1 }
   - { id: c.o2, name: O2 C, tag: AT-1C, source: m, topic: t/3, unit: pctVol, basis: dry, expectedPeriodS: 1 }
@@ -33,17 +26,6 @@ units:
 const withOxygen = (lines: string[], tail = "") => head + lines.map((l) => `      ${l}\n`).join("") + tail;
 const LIMIT = "siteMaximum: { pctVol: 10, basis: dry, origin: explosion-protection document }";
 
-function problemsOf(text: string) {
-  try {
-    parseConfig(text, "plant.yaml");
-  } catch (e) {
-    expect(e).toBeInstanceOf(ConfigError);
-    return (e as ConfigError).problems;
-  }
-  throw new Error("expected a ConfigError");
-}
-/** 1-based line of the first line containing `marker`. */
-const lineOf = (text: string, marker: string) => text.split("\n").findIndex((l) => l.includes(marker)) + 1;
 
 describe("valid oxygen configs", () => {
   it("one analyser with defaults for the band and the trend", () => {

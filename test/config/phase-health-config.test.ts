@@ -2,17 +2,10 @@
 // config names file:line:column, the key, what was expected and what was found.
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { ConfigError, loadConfig, parseConfig, type ConfigProblem } from "../../src/config/load.js";
+import { loadConfig, parseConfig } from "../../src/config/load.js";
+import { problemsOf, lineOf, SITE_AND_SOURCE } from "./helpers.js";
 
-const base = `site:
-  name: Testfield
-  plant: Line 1
-  barometricPressureHPa: 1013
-sources:
-  - id: m
-    kind: mqtt
-    url: mqtt://127.0.0.1:18831
-signals:
+const base = `${SITE_AND_SOURCE}signals:
   - { id: d.power, name: Drive power, tag: JI-1, source: m, topic: t/1, unit: kW, expectedPeriodS: 1 }
   - { id: d.feed, name: Feed, tag: WI-2, source: m, topic: t/2, unit: t/h, expectedPeriodS: 1 }
   - { id: d.tin, name: Inlet temperature, tag: TT-3, source: m, topic: t/3, unit: degC, expectedPeriodS: 1 }
@@ -42,22 +35,8 @@ analysers:
   - { id: a6, name: Filter O2/CO analyser, frozenWindowS: 600, frozenEpsilon: 0.005, loopCurrentSignal: a.loop, functionCheckSignal: a.status, phaseUnit: vm1 }
 `;
 
-function problemsOf(text: string): ConfigProblem[] {
-  try {
-    parseConfig(text, "plant.yaml");
-  } catch (e) {
-    expect(e).toBeInstanceOf(ConfigError);
-    return (e as ConfigError).problems;
-  }
-  throw new Error("expected a ConfigError");
-}
 
 /** 1-based line of the first line containing `needle` in `text`. */
-function lineOf(text: string, needle: string): number {
-  const i = text.split("\n").findIndex((l) => l.includes(needle));
-  if (i < 0) throw new Error(`"${needle}" is not in the text`);
-  return i + 1;
-}
 
 function edit(from: string, to: string): string {
   expect(base).toContain(from);
