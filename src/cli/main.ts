@@ -24,6 +24,7 @@ usage:
   millwarden demo [--source mqtt|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
   millwarden check --config FILE
   millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
+  millwarden export --config FILE --from T --to T [--signals ID,ID] > FILE.csv   history as CSV (time,signal,value,quality)
   millwarden pki list|show [--pki DIR]          OPC UA certificates: trusted and rejected servers, our own
   millwarden pki trust FILE [--pki DIR]         trust a server certificate (compare its thumbprint first)
 
@@ -181,6 +182,42 @@ async function demoOverOpcUa(base: MillwardenConfig, values: { scenario: string;
   };
 }
 
+/** A time on the command line: RFC 3339 (with Z or an offset) or epoch milliseconds. */
+function timeArg(v: string | undefined, name: string): number {
+  if (v === undefined) throw new UsageError(`--${name} is required (RFC 3339, e.g. 2026-12-01T06:00:00Z, or epoch ms)`);
+  const t = /^\d+$/.test(v) ? Number(v) : /(Z|[+-]\d{2}:\d{2})$/.test(v) ? Date.parse(v) : Number.NaN;
+  if (!Number.isFinite(t)) throw new UsageError(`--${name} expects RFC 3339 with Z or an offset, or epoch ms; found "${v}"`);
+  return t;
+}
+
+/** Write the stored history in the exchange format that replay reads (streamed, line by line). */
+async function cmdExport(args: string[]): Promise<number> {
+  const { values } = parseArgs({ args, options: { config: { type: "string" }, from: { type: "string" }, to: { type: "string" }, signals: { type: "string" } } });
+  const cfg = requireConfig(values.config);
+  const fromMs = timeArg(values.from, "from");
+  const toMs = timeArg(values.to, "to");
+  if (!(fromMs < toMs)) throw new UsageError("--from must be earlier than --to");
+  const known = new Set(cfg.signals.map((s) => s.id));
+  const signals = values.signals?.split(",").map((s) => s.trim()).filter(Boolean);
+  const unknown = signals?.filter((s) => !known.has(s)) ?? [];
+  if (unknown.length) throw new UsageError(`--signals: unknown signal ${unknown.map((s) => `"${s}"`).join(", ")}; expected ids from ${values.config}`);
+  // A reader that stops early (| head) is not an error.
+  process.stdout.on("error", (e: NodeJS.ErrnoException) => {
+    if (e.code === "EPIPE") process.exit(0);
+    throw e;
+  });
+  const { Historian } = await import("../store/historian.js");
+  const h = Historian.open({ path: resolve(cfg.storage.path), synchronous: cfg.storage.synchronous });
+  try {
+    for (const line of h.exportCsv(fromMs, toMs, signals)) {
+      if (!process.stdout.write(line + "\n")) await new Promise((ok) => process.stdout.once("drain", ok));
+    }
+  } finally {
+    h.close();
+  }
+  return 0;
+}
+
 async function cmdPki(args: string[]): Promise<number> {
   const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { pki: { type: "string", default: "data/pki" } } });
   const [verb, file] = positionals;
@@ -259,6 +296,8 @@ export async function main(argv: string[]): Promise<number> {
         return await cmdSimulate(rest);
       case "pki":
         return await cmdPki(rest);
+      case "export":
+        return await cmdExport(rest);
       case undefined:
       case "help":
       case "--help":
