@@ -17,7 +17,7 @@ export type AckOutcome =
   | { ok: true; events: AdvisoryTransition[] }
   | { ok: false; status: 404 | 409; error: string };
 
-const fmt = (v: number | null) => (v === null ? "—" : Math.abs(v) >= 100 ? v.toFixed(0) : v.toFixed(1));
+const fmt = (v: number | null) => (v === null ? "—" : !Number.isFinite(v) ? "∞ (not approaching)" : Math.abs(v) >= 100 ? v.toFixed(0) : v.toFixed(1));
 
 export class Advisory {
   state: AdvisoryState = "normal";
