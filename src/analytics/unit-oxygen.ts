@@ -13,8 +13,8 @@
 import type { OxygenConfig } from "../config/sections/oxygen.js";
 import { o2SignalIds } from "../config/sections/oxygen.js";
 import type { InertingState } from "../core/types.js";
-import type { O2Basis, O2Monitoring } from "../physics/oxygen.js";
-import { InertingEstimator, fmt, type MeasuredInertingState } from "./inerting.js";
+import type { O2Basis } from "../physics/oxygen.js";
+import { InertingEstimator, fmt, type MeasuredInertingState, type O2Limit } from "./inerting.js";
 import { O2Trend, timeToLimitS } from "./oxygen-trend.js";
 import { UnitPurge, type PurgeProgressView } from "./purge-session.js";
 import type { Trust } from "./signal-state.js";
@@ -22,17 +22,8 @@ import { vote, type VoteMode } from "./voting.js";
 
 export type { PurgeProgressView } from "./purge-session.js";
 
-export interface O2LimitView {
-  id: "site-maximum" | "loc";
-  /** The limit on `basis`, % vol. */
-  pctVol: number;
-  basis: O2Basis;
-  /** How the limit was set, with the origin recorded in the config. */
-  text: string;
-  origin: string;
-  locPctVol: number | null;
-  monitoring: O2Monitoring | null;
-  temperatureAllowancePctPt: number | null;
+/** A limit as configured (O2Limit), with the O2 against it now. */
+export interface O2LimitView extends O2Limit {
   /** The O2 on this limit's basis, % vol, and the margin to it, percentage points. */
   o2PctVol: number | null;
   marginPctPt: number | null;
