@@ -17,7 +17,9 @@ export type AckOutcome =
   | { ok: true; events: AdvisoryTransition[] }
   | { ok: false; status: 404 | 409; error: string };
 
-const fmt = (v: number | null) => (v === null ? "—" : !Number.isFinite(v) ? "∞ (not approaching)" : Math.abs(v) >= 100 ? v.toFixed(0) : v.toFixed(1));
+const fmt = (v: number | null) => (v === null ? "—" : Math.abs(v) >= 100 ? v.toFixed(0) : v.toFixed(1));
+/** A value with its unit; an endless time to a limit reads "not approaching". */
+const withUnit = (v: number | null, unit: string) => (v !== null && !Number.isFinite(v) ? "not approaching" : `${fmt(v)} ${unit}`);
 
 export class Advisory {
   state: AdvisoryState = "normal";
@@ -107,14 +109,14 @@ export class Advisory {
     this.ackedAtMs = null;
     if (!wasActive) this.raisedAtMs = nowMs;
     const kind = wasActive ? "escalate" : "raise";
-    return this.transition(kind, from, nowMs, SYSTEM_USER, `${this.quantityLabel} ${fmt(this.value)} ${this.unitSymbol} reached the ${tier} threshold ${fmt(this.thresholdOf(tier))} ${this.unitSymbol}`);
+    return this.transition(kind, from, nowMs, SYSTEM_USER, `${this.quantityLabel} ${withUnit(this.value, this.unitSymbol)} reached the ${tier} threshold ${withUnit(this.thresholdOf(tier), this.unitSymbol)}`);
   }
 
   private lower(tier: Tier, nowMs: number): AdvisoryTransition {
     this.activeTier = tier;
     this.lastTier = tier;
     this.lastChangeMs = nowMs;
-    return this.transition("de-escalate", this.state, nowMs, SYSTEM_USER, `${this.quantityLabel} ${fmt(this.value)} ${this.unitSymbol} no longer beyond the higher threshold; now ${tier}`);
+    return this.transition("de-escalate", this.state, nowMs, SYSTEM_USER, `${this.quantityLabel} ${withUnit(this.value, this.unitSymbol)} no longer beyond the higher threshold; now ${tier}`);
   }
 
   private clear(nowMs: number): AdvisoryTransition {
@@ -122,7 +124,7 @@ export class Advisory {
     this.activeTier = null;
     this.lastChangeMs = nowMs;
     this.state = from === "ack" ? "normal" : "rtn-unack";
-    return this.transition("clear", from, nowMs, SYSTEM_USER, `${this.quantityLabel} returned to normal (${fmt(this.value)} ${this.unitSymbol})`);
+    return this.transition("clear", from, nowMs, SYSTEM_USER, `${this.quantityLabel} returned to normal (${withUnit(this.value, this.unitSymbol)})`);
   }
 
   private transition(kind: AdvisoryTransition["transition"], from: AdvisoryState, atMs: number, by: string, why: string): AdvisoryTransition {
@@ -156,8 +158,8 @@ export class Advisory {
       unitId: r.unit ?? null,
       title: r.title,
       message:
-        `${r.title}: ${this.quantityLabel} ${fmt(this.value)} ${this.unitSymbol} ` +
-        `(${tier} threshold ${fmt(limit)} ${this.unitSymbol})${active ? "" : ", now back to normal"}. ${ADVISORY_ONLY}`,
+        `${r.title}: ${this.quantityLabel} ${withUnit(this.value, this.unitSymbol)} ` +
+        `(${tier} threshold ${withUnit(limit, this.unitSymbol)})${active ? "" : ", now back to normal"}. ${ADVISORY_ONLY}`,
       quantity: r.quantity,
       value: this.value,
       unit: this.unitSymbol,
