@@ -20,6 +20,7 @@
 // slopePerS() in v-units per second. Memory is the points inside the window (a ring buffer
 // that grows to the window's point count and no further), independent of run time.
 import { checkNumber } from "../physics/validate.js";
+import { grownRing } from "./ring.js";
 
 export class RollingRobustSlope {
   private t: Float64Array;
@@ -159,16 +160,7 @@ export class RollingRobustSlope {
   }
 
   private grow(): void {
-    const cap = this.t.length * 2;
-    const t = new Float64Array(cap);
-    const v = new Float64Array(cap);
-    for (let i = 0; i < this.n; i++) {
-      const idx = (this.head + i) % this.t.length;
-      t[i] = this.t[idx]!;
-      v[i] = this.v[idx]!;
-    }
-    this.t = t;
-    this.v = v;
+    ({ t: this.t, v: this.v } = grownRing(this.t, this.v, this.head, this.n));
     this.head = 0;
   }
 }

@@ -4,6 +4,7 @@
 // removing terms lets rounding drift and lets t grow, which destroys precision in
 // Sxx = Σt² − (Σt)²/n; so the origin is moved to the oldest point and the sums are
 // recomputed from the buffer every `rebaseEvery` insertions (amortised O(1)).
+import { grownRing } from "./ring.js";
 
 export class RollingLinearFit {
   private t: Float64Array;
@@ -114,16 +115,7 @@ export class RollingLinearFit {
   }
 
   private grow(): void {
-    const cap = this.t.length * 2;
-    const t = new Float64Array(cap);
-    const v = new Float64Array(cap);
-    for (let i = 0; i < this.n; i++) {
-      const idx = (this.head + i) % this.t.length;
-      t[i] = this.t[idx]!;
-      v[i] = this.v[idx]!;
-    }
-    this.t = t;
-    this.v = v;
+    ({ t: this.t, v: this.v } = grownRing(this.t, this.v, this.head, this.n));
     this.head = 0;
   }
 }
