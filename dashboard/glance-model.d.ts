@@ -1,12 +1,35 @@
 // Types for glance-model.js (plain JS in the browser, typed here for the tests).
-import type { AdvisoryView, DewPointView, InertingState, InertingView, SignalView, Tier } from "../src/core/types.js";
+import type { AdvisoryState, AdvisoryView, DewPointView, InertingState, InertingView, SignalView, Tier } from "../src/core/types.js";
 
 export function sortAdvisories(advisories: readonly AdvisoryView[]): AdvisoryView[];
+
+export type HeldState = "shelved" | "suppressed" | "out-of-service";
+export const HELD_STATES: readonly HeldState[];
+export function isHeld(advisory: Pick<AdvisoryView, "state">): boolean;
+export function needsAttention(advisory: Pick<AdvisoryView, "state" | "ackedBy">): boolean;
+export function splitAdvisories(advisories: readonly AdvisoryView[]): { annunciated: AdvisoryView[]; held: AdvisoryView[] };
+export const STATE_WORDS: Partial<Record<AdvisoryState, string>>;
+export function advisoryStateText(
+  advisory: AdvisoryView,
+  nowMs: number,
+): { word: string | null; text: string; detail: string | null; acked: boolean };
+export const SHELVABLE_TIERS: readonly Tier[];
+export type AdvisoryAction = "ack" | "reset" | "shelve" | "unshelve";
+export function advisoryActions(advisory: AdvisoryView): AdvisoryAction[];
+export function advisoryMarks(advisory: Pick<AdvisoryView, "firstOut" | "chattering" | "standing">): string[];
+export type ShelveChoice = { id: string; label: string } & ({ durationS: number; oneShot?: undefined } | { oneShot: true; durationS?: undefined });
+export const SHELVE_CHOICES: readonly ShelveChoice[];
+export type CommandBody = { by: string; reason?: string; durationS?: number; oneShot?: true };
+export function commandBody(
+  kind: AdvisoryAction,
+  fields: { by?: string | null; reason?: string | null; choice?: string | null },
+): { body: CommandBody; error?: undefined } | { error: string; body?: undefined };
 export function formatAge(ms: number): string;
 export function formatNumber(value: number | null | undefined, digits: number): string;
 export function formatSigned(value: number | null | undefined, digits: number): string;
 export function formatClock(ms: number): string;
 export function formatDateTime(ms: number): string;
+export function formatWhen(ms: number, nowMs: number): string;
 export function staleText(signal: SignalView | undefined, nowMs: number): string | null;
 export const INERTING_WORDS: Record<InertingState, string>;
 export const INERTING_TIER: Partial<Record<InertingState, Tier>>;

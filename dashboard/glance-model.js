@@ -16,6 +16,135 @@ export function sortAdvisories(advisories) {
   );
 }
 
+// ---- advisory states, actions and marks ----
+
+/**
+ * The states in which an advisory is not annunciated (ISA-18.2): shelved by an operator,
+ * suppressed by design, out of service. They are listed apart, never as if they were active,
+ * and never hidden: a held warning is on screen like any other.
+ */
+export const HELD_STATES = ["shelved", "suppressed", "out-of-service"];
+
+export function isHeld(advisory) {
+  return HELD_STATES.includes(advisory.state);
+}
+
+/** Someone has to look: unacknowledged (present or returned), or latched and not yet acknowledged. */
+export function needsAttention(advisory) {
+  const s = advisory.state;
+  return s === "unack" || s === "rtn-unack" || (s === "latched" && advisory.ackedBy === null);
+}
+
+/** Annunciated and held advisories, each sorted like sortAdvisories. */
+export function splitAdvisories(advisories) {
+  const sorted = sortAdvisories(advisories);
+  return { annunciated: sorted.filter((a) => !isHeld(a)), held: sorted.filter(isHeld) };
+}
+
+/** Short words for the states that need one beside the title (the ordinary ones need none). */
+export const STATE_WORDS = { latched: "latched", shelved: "shelved", suppressed: "suppressed", "out-of-service": "out of service" };
+
+/**
+ * The state in words. `word`: the badge beside the title, or null; `text`: the state line;
+ * `detail`: the reason someone gave, or what a state means, or null; `acked`: nobody needs
+ * to act on it now. Times are data times (nowMs), never the browser's clock.
+ */
+export function advisoryStateText(advisory, nowMs) {
+  const a = advisory;
+  const word = STATE_WORDS[a.state] ?? null;
+  switch (a.state) {
+    case "unack":
+      return { word, text: "unacknowledged", detail: null, acked: false };
+    case "rtn-unack":
+      return { word, text: "returned to normal \u00b7 unacknowledged", detail: null, acked: false };
+    case "ack": {
+      const at = a.ackedAtMs !== null ? ` at ${formatWhen(a.ackedAtMs, nowMs)}` : "";
+      return { word, text: `acknowledged by ${a.ackedBy ?? "?"}${at}`, detail: null, acked: true };
+    }
+    case "latched": {
+      const acked = a.ackedBy !== null ? ` \u00b7 acknowledged by ${a.ackedBy}` : " \u00b7 unacknowledged";
+      return { word, text: `returned to normal, kept until reset${acked}`, detail: null, acked: a.ackedBy !== null };
+    }
+    case "shelved": {
+      let until = "";
+      if (a.shelvedUntilMs !== null) {
+        until = a.oneShot
+          ? ` until it clears (at most until ${formatClock(a.shelvedUntilMs)})`
+          : ` until ${formatClock(a.shelvedUntilMs)} (${formatAge(a.shelvedUntilMs - nowMs)} left)`;
+      }
+      const now = a.conditionActive ? "" : " \u00b7 condition now normal";
+      return { word, text: `shelved by ${a.heldBy ?? "?"}${until}${now}`, detail: a.heldReason ? `reason: ${a.heldReason}` : null, acked: true };
+    }
+    case "suppressed":
+      return {
+        word,
+        text: `suppressed by design: ${a.suppressedBy ?? "no reason given"}`,
+        detail: "shown only while its condition is present; annunciated again if it still is when the suppression ends",
+        acked: true,
+      };
+    case "out-of-service":
+      return { word, text: `out of service \u00b7 taken out by ${a.heldBy ?? "?"}`, detail: a.heldReason ? `reason: ${a.heldReason}` : null, acked: true };
+    default:
+      return { word, text: String(a.state), detail: null, acked: true };
+  }
+}
+
+/**
+ * Tiers the glance screen offers to shelve. Warnings are left out: by default a site does not
+ * let them be shelved at all (advisoryPolicy.shelveWarnings), and the screen does not know
+ * the site's choice; where it is allowed, the API takes it.
+ */
+export const SHELVABLE_TIERS = ["notice", "caution"];
+
+/** What the screen offers for an advisory: a subset of ack, reset, shelve, unshelve, in that order. */
+export function advisoryActions(advisory) {
+  const a = advisory;
+  const out = [];
+  if (a.state === "unack" || a.state === "rtn-unack") out.push("ack");
+  if (a.state === "latched") out.push("reset");
+  if ((a.state === "unack" || a.state === "ack") && a.conditionActive && SHELVABLE_TIERS.includes(a.tier)) out.push("shelve");
+  if (a.state === "shelved") out.push("unshelve");
+  return out;
+}
+
+/** Nuisance marks as short words (they mark, they never hide). */
+export function advisoryMarks(advisory) {
+  const marks = [];
+  if (advisory.firstOut) marks.push("first out");
+  if (advisory.chattering) marks.push("chattering");
+  if (advisory.standing) marks.push("standing");
+  return marks;
+}
+
+/** How long to shelve: timed (at most the site's maximum, 8 h by default) or until the condition clears. */
+export const SHELVE_CHOICES = [
+  { id: "15min", label: "15 min", durationS: 15 * 60 },
+  { id: "1h", label: "1 h", durationS: 3600 },
+  { id: "4h", label: "4 h", durationS: 4 * 3600 },
+  { id: "8h", label: "8 h", durationS: 8 * 3600 },
+  { id: "one-shot", label: "until it clears (one-shot)", oneShot: true },
+];
+
+const NAME_MAX_CHARS = 64;
+const REASON_MAX_CHARS = 500;
+
+/**
+ * The request body for a command from what was typed, or the reason it cannot be sent yet.
+ * The limits are the API's (src/server/params.ts), so the form says so before the daemon does.
+ */
+export function commandBody(kind, { by, reason, choice }) {
+  const name = String(by ?? "").trim();
+  if (name === "") return { error: "Your name is needed: every command is recorded with who and when." };
+  if ([...name].length > NAME_MAX_CHARS) return { error: `The name is longer than ${NAME_MAX_CHARS} characters.` };
+  if (kind !== "shelve") return { body: { by: name } };
+  const why = String(reason ?? "").trim();
+  if (why === "") return { error: "A reason is needed to shelve: it is shown with the advisory and kept in the record." };
+  if ([...why].length > REASON_MAX_CHARS) return { error: `The reason is longer than ${REASON_MAX_CHARS} characters.` };
+  const c = SHELVE_CHOICES.find((x) => x.id === choice);
+  if (c === undefined) return { error: "Choose how long to shelve it." };
+  return { body: c.oneShot ? { by: name, reason: why, oneShot: true } : { by: name, reason: why, durationS: c.durationS } };
+}
+
 /** "45 s", "3 min", "2 h", "2 h 05 min", "3 d 4 h"; whole units, rounded down. */
 export function formatAge(ms) {
   if (!Number.isFinite(ms) || ms < 0) return "0 s";
@@ -51,6 +180,11 @@ export function formatClock(ms) {
   const d = new Date(ms);
   const two = (n) => String(n).padStart(2, "0");
   return `${two(d.getHours())}:${two(d.getMinutes())}:${two(d.getSeconds())}`;
+}
+
+/** A data time as the clock alone when it is within 12 h of now, else with its date (no ambiguity across days). */
+export function formatWhen(ms, nowMs) {
+  return Math.abs(nowMs - ms) < 12 * 3600 * 1000 ? formatClock(ms) : formatDateTime(ms);
 }
 
 export function formatDateTime(ms) {
@@ -116,11 +250,15 @@ export function advisoryTarget(advisory) {
   return kind && id ? { kind, id } : null;
 }
 
-/** The highest tier among active advisories pointing at one element, or null. */
+/**
+ * The highest tier among annunciated advisories with their condition present (unacknowledged
+ * or acknowledged) pointing at one element, or null. Returned, latched and held ones do not
+ * colour the element.
+ */
 export function worstTierFor(advisories, kind, id) {
   let worst = null;
   for (const a of advisories) {
-    if (a.state === "normal" || a.state === "rtn-unack") continue;
+    if (a.state !== "unack" && a.state !== "ack") continue;
     const t = advisoryTarget(a);
     if (!t || t.kind !== kind || t.id !== id) continue;
     if (worst === null || (TIER_RANK[a.tier] ?? 0) > (TIER_RANK[worst] ?? 0)) worst = a.tier;

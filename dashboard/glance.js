@@ -11,19 +11,26 @@ import { applyMessage } from "./live-state.js";
 import {
   INERTING_TIER,
   INERTING_WORDS,
+  SHELVE_CHOICES,
+  advisoryActions,
+  advisoryMarks,
+  advisoryStateText,
+  commandBody,
   createHistory,
   formatAge,
   formatClock,
   formatDateTime,
   formatNumber,
   formatSigned,
+  isHeld,
   lowestMargin,
+  needsAttention,
   o2BarGeometry,
   pruneHistory,
   readSeries,
   recordPoint,
-  sortAdvisories,
   sparklineRuns,
+  splitAdvisories,
   staleText,
   worstTierFor,
 } from "./glance-model.js";
@@ -82,6 +89,9 @@ function svg(tag, attrs = {}, ...children) {
   for (const child of children) if (child) node.append(child);
   return node;
 }
+
+/** replaceChildren writes null as the text "null": leave the absent parts out. */
+const present = (...nodes) => nodes.filter((n) => n !== null && n !== undefined);
 
 /** Numbers as people read them: fewer decimals as the magnitude grows. */
 function autoDigits(v) {
@@ -147,17 +157,140 @@ const unitName = (id) => (id === null ? "plant" : (state?.units.find((u) => u.id
 
 // ---- advisories ----
 
-/** Advisory rows persist across renders (keyed by id) so a blinking icon keeps its rhythm. */
+/**
+ * Advisory rows persist across renders (keyed by id): a blinking icon keeps its rhythm and an
+ * open command form keeps what was typed while the feed updates the row around it.
+ */
 const advisoryRows = new Map();
 
-function advisoryStateText(a) {
-  if (a.state === "unack") return { text: "unacknowledged", acked: false };
-  if (a.state === "rtn-unack") return { text: "returned to normal \u00b7 unacknowledged", acked: false };
-  if (a.state === "ack") {
-    const at = a.ackedAtMs !== null ? ` at ${formatClock(a.ackedAtMs)}` : "";
-    return { text: `acknowledged by ${a.ackedBy ?? "?"}${at}`, acked: true };
+/** The buttons on a row, and what their form's submit button says. */
+const ACTION_LABELS = { ack: "Acknowledge", reset: "Reset", shelve: "Shelve\u2026", unshelve: "Unshelve" };
+const SUBMIT_LABELS = { ack: "Acknowledge", reset: "Reset", shelve: "Shelve", unshelve: "Unshelve" };
+let formCount = 0;
+
+function rememberedName() {
+  try {
+    return localStorage.getItem(NAME_KEY) ?? "";
+  } catch {
+    // Storage may be disabled; the name is then typed every time.
+    return "";
   }
-  return { text: "normal", acked: true };
+}
+
+function rememberName(by) {
+  try {
+    localStorage.setItem(NAME_KEY, by);
+  } catch {
+    // See rememberedName.
+  }
+}
+
+/** One small form per row, for every command: who, and for a shelve why and how long. */
+function createCommandForm(row) {
+  formCount += 1;
+  const n = formCount;
+  const name = el("input", { type: "text", id: `cmd-by-${n}`, maxlength: 64, autocomplete: "name", spellcheck: "false" });
+  const reason = el("input", { type: "text", id: `cmd-reason-${n}`, maxlength: 500 });
+  const choices = SHELVE_CHOICES.map((c) =>
+    el("label", { class: "choice" }, el("input", { type: "radio", name: `cmd-for-${n}`, value: c.id }), ` ${c.label}`),
+  );
+  const f = {
+    node: null,
+    what: el("p", { class: "cmd-what" }),
+    name,
+    reason,
+    reasonField: el("div", { class: "cmd-field" }, el("label", { for: reason.id, text: "Reason" }), reason),
+    forField: el("fieldset", { class: "cmd-for" }, el("legend", { text: "Shelve for" }), el("div", { class: "choices" }, ...choices)),
+    submit: el("button", { type: "submit", class: "cmd cmd-submit" }),
+    cancel: el("button", { type: "button", class: "cmd", text: "Cancel" }),
+    error: el("p", { class: "cmd-error", role: "alert" }),
+  };
+  // novalidate: the form's own checks say what is missing, in the same words as the API.
+  f.node = el(
+    "form",
+    { class: "cmd-form", hidden: true, novalidate: true },
+    f.what,
+    el("div", { class: "cmd-field" }, el("label", { for: name.id, text: "Your name" }), name),
+    f.reasonField,
+    f.forField,
+    el("div", { class: "cmd-buttons" }, f.submit, f.cancel),
+    f.error,
+  );
+  f.node.addEventListener("submit", (event) => {
+    event.preventDefault();
+    void submitCommand(row);
+  });
+  f.cancel.addEventListener("click", () => closeCommandForm(row, true));
+  f.node.addEventListener("keydown", (event) => {
+    if (event.key === "Escape") closeCommandForm(row, true);
+  });
+  return f;
+}
+
+function openCommandForm(row, kind) {
+  const f = row.form;
+  const a = row.advisory;
+  row.formKind = kind;
+  f.what.textContent = `${SUBMIT_LABELS[kind]} ${a.tier} \u201c${a.title}\u201d`;
+  f.submit.textContent = SUBMIT_LABELS[kind];
+  f.reasonField.hidden = kind !== "shelve";
+  f.forField.hidden = kind !== "shelve";
+  f.error.textContent = "";
+  if (f.name.value.trim() === "") f.name.value = rememberedName();
+  f.node.hidden = false;
+  (f.name.value.trim() === "" ? f.name : kind === "shelve" ? f.reason : f.submit).focus();
+}
+
+function closeCommandForm(row, returnFocus = false) {
+  const f = row.form;
+  const kind = row.formKind;
+  f.node.hidden = true;
+  f.reason.value = "";
+  for (const input of f.forField.querySelectorAll("input")) input.checked = false;
+  f.error.textContent = "";
+  row.formKind = null;
+  if (returnFocus && kind && !row.buttons[kind].hidden) row.buttons[kind].focus();
+}
+
+async function submitCommand(row) {
+  const f = row.form;
+  const kind = row.formKind;
+  const a = row.advisory;
+  if (kind === null) return;
+  const made = commandBody(kind, { by: f.name.value, reason: f.reason.value, choice: f.forField.querySelector("input:checked")?.value });
+  if (made.error) {
+    f.error.textContent = made.error;
+    return;
+  }
+  f.submit.disabled = true;
+  f.error.textContent = "";
+  try {
+    const response = await fetch(`/api/advisories/${encodeURIComponent(a.id)}/${kind}`, {
+      method: "POST",
+      headers: { "content-type": "application/json" },
+      body: JSON.stringify(made.body),
+    });
+    const body = await response.json().catch(() => null);
+    if (!response.ok) {
+      f.error.textContent = `Not done: ${body?.message ?? `the daemon answered HTTP ${response.status}`}`;
+      return;
+    }
+    rememberName(made.body.by);
+    closeCommandForm(row);
+    // Show the result at once (null: back to normal, off the screen); the next delta confirms it.
+    if (state) {
+      const updated = body?.advisory ?? null;
+      state = {
+        ...state,
+        advisories: updated === null ? state.advisories.filter((x) => x.id !== a.id) : state.advisories.map((x) => (x.id === updated.id ? updated : x)),
+      };
+      render();
+    }
+  } catch (err) {
+    f.error.textContent = `Not done: the daemon cannot be reached (${err instanceof Error ? err.message : String(err)}).`;
+  } finally {
+    f.submit.disabled = false;
+  }
 }
 
 function createAdvisoryRow(a) {
@@ -169,31 +302,50 @@ function createAdvisoryRow(a) {
     age: el("div", { class: "advisory-age" }),
     detail: el("div", { class: "advisory-detail" }),
     stateText: el("div", { class: "advisory-state" }),
-    button: el("button", { class: "ack", type: "button", text: "Acknowledge" }),
+    actions: el("div", { class: "advisory-actions" }),
+    buttons: {},
+    form: null,
+    formKind: null,
     advisory: a,
   };
-  row.button.addEventListener("click", () => acknowledge(row.advisory, row.button));
-  row.li.append(row.title, row.age, row.detail, row.stateText, row.button);
+  for (const [kind, label] of Object.entries(ACTION_LABELS)) {
+    const button = el("button", { class: "cmd", type: "button", text: label, hidden: true });
+    button.addEventListener("click", () => openCommandForm(row, kind));
+    row.buttons[kind] = button;
+    row.actions.append(button);
+  }
+  row.form = createCommandForm(row);
+  row.li.append(row.title, row.age, row.detail, row.stateText, row.actions, row.form.node);
   return row;
 }
 
 function updateAdvisoryRow(row, a) {
   row.advisory = a;
-  const hollow = a.state === "rtn-unack";
-  const unacked = a.state === "unack" || a.state === "rtn-unack";
-  row.li.className = `advisory tier-${a.tier}${unacked ? " is-unack" : ""}`;
+  const held = isHeld(a);
+  // Outline only once the condition has gone: nobody should read it as present.
+  const hollow = !a.conditionActive;
+  const attention = needsAttention(a);
+  row.li.className = `advisory tier-${a.tier}${attention ? " is-unack" : ""}${held ? " is-held" : ""}`;
   row.li.title = `${a.message}\nCheck: ${a.check}\nCause: ${a.cause}\nConsequence: ${a.consequence}\nThreshold origin: ${a.origin}`;
   const iconKey = `${a.tier}/${hollow}`;
   if (row.iconKey !== iconKey) {
-    const icon = tierIcon(a.tier, { hollow, label: `${a.tier}${hollow ? ", returned to normal" : ""}` });
+    const icon = tierIcon(a.tier, { hollow, label: `${a.tier}${hollow ? ", condition no longer present" : ""}` });
     if (row.icon) row.icon.replaceWith(icon);
     else row.li.prepend(icon);
     row.icon = icon;
     row.iconKey = iconKey;
   }
-  row.title.replaceChildren(el("span", { class: `tier-word word-${a.tier}`, text: a.tier }), a.title);
+  const s = advisoryStateText(a, state ? state.nowMs : a.lastChangeMs);
+  row.title.replaceChildren(
+    ...present(
+      el("span", { class: `tier-word word-${a.tier}`, text: a.tier }),
+      s.word ? el("span", { class: "state-tag", text: s.word }) : null,
+      a.title,
+      ...advisoryMarks(a).map((m) => el("span", { class: "mark", text: m })),
+    ),
+  );
   const ageText = state ? formatAge(state.nowMs - a.raisedAtMs) : "";
-  row.age.textContent = ageText;
+  setText(row.age, ageText);
   row.age.setAttribute("aria-label", `raised ${ageText} ago`);
   const digits = autoDigits(a.limit);
   const limitWord = a.direction === "high" ? "high limit" : "low limit";
@@ -204,19 +356,18 @@ function updateAdvisoryRow(row, a) {
       : el("span", { class: "value", text: `${formatNumber(a.value, digits)} ${a.unit}` }),
     ` \u2014 ${limitWord} ${formatNumber(a.limit, digits)} ${a.unit}`,
   );
-  const s = advisoryStateText(a);
-  row.stateText.textContent = s.text;
+  row.stateText.replaceChildren(...present(el("span", { text: s.text }), s.detail ? el("span", { class: "state-detail", text: s.detail }) : null));
   row.stateText.classList.toggle("is-acked", s.acked);
-  row.button.hidden = !unacked;
-  row.button.setAttribute("aria-label", `Acknowledge ${a.tier}: ${a.title}`);
+  const actions = advisoryActions(a);
+  for (const [kind, button] of Object.entries(row.buttons)) {
+    button.hidden = !actions.includes(kind);
+    button.setAttribute("aria-label", `${SUBMIT_LABELS[kind]} ${a.tier}: ${a.title}`);
+  }
 }
 
-function renderAdvisories() {
-  const list = $("advisory-list");
-  const sorted = sortAdvisories(state.advisories);
-  const seen = new Set();
-  sorted.forEach((a, i) => {
-    seen.add(a.id);
+/** Put each advisory's row at its place in `list`, creating rows as needed. */
+function placeRows(list, advisories) {
+  advisories.forEach((a, i) => {
     let row = advisoryRows.get(a.id);
     if (!row) {
       row = createAdvisoryRow(a);
@@ -226,69 +377,36 @@ function renderAdvisories() {
     // Move only when out of place: moving a node restarts its blink.
     if (list.children[i] !== row.li) list.insertBefore(row.li, list.children[i] ?? null);
   });
+}
+
+function renderAdvisories() {
+  const { annunciated, held } = splitAdvisories(state.advisories);
+  // Gone rows first, so the others move only when their order really changes (moving a row
+  // would take the focus out of a form someone is typing in).
+  const seen = new Set(state.advisories.map((a) => a.id));
   for (const [id, row] of advisoryRows) {
     if (seen.has(id)) continue;
     row.li.remove();
     advisoryRows.delete(id);
   }
-  const unacked = sorted.filter((a) => a.state === "unack" || a.state === "rtn-unack").length;
-  $("advisory-count").textContent = sorted.length === 0 ? "" : `· ${sorted.length} (${unacked} unacknowledged)`;
-  $("advisory-none").hidden = sorted.length > 0;
-  // A wall screen has nobody scrolling: say plainly how many advisories are out of view.
-  const box = list.getBoundingClientRect();
-  const hidden = [...list.children].filter((li) => li.getBoundingClientRect().bottom > box.bottom + 1).length;
+  placeRows($("advisory-list"), annunciated);
+  placeRows($("held-list"), held);
+  const unacked = annunciated.filter(needsAttention).length;
+  $("advisory-count").textContent = annunciated.length === 0 ? "" : `\u00b7 ${annunciated.length} (${unacked} unacknowledged)`;
+  $("advisory-none").hidden = annunciated.length > 0;
+  $("held-head").hidden = held.length === 0;
+  setText($("held-count"), `\u00b7 ${held.length}`);
+  // A wall screen has nobody scrolling: say plainly how many advisories are out of view, and
+  // how many of those are warnings, so none is hidden by the size of the screen.
+  const box = $("advisory-scroll").getBoundingClientRect();
+  const below = [...advisoryRows.values()].map((r) => r.li).filter((li) => li.getBoundingClientRect().bottom > box.bottom + 1);
+  const warnings = below.filter((li) => li.classList.contains("tier-warning")).length;
   const more = $("advisory-more");
-  more.hidden = hidden === 0 || box.height === 0;
-  setText(more, `\u25bc ${hidden} more below (scroll the list)`);
-  const top = sorted[0];
-  document.title = top ? `(${sorted.length}) ${top.tier}: ${top.title} · millwarden` : "millwarden · glance";
-}
-
-async function acknowledge(advisory, button) {
-  let remembered = "";
-  try {
-    remembered = localStorage.getItem(NAME_KEY) ?? "";
-  } catch {
-    // Storage may be disabled; the name is then asked for every time.
-  }
-  const answer = window.prompt(`Acknowledge ${advisory.tier} "${advisory.title}".\nYour name (recorded with the time):`, remembered);
-  if (answer === null) return;
-  const by = answer.trim();
-  if (by === "") {
-    window.alert("Not acknowledged: a name is needed, the acknowledgement is recorded with who and when.");
-    return;
-  }
-  button.disabled = true;
-  try {
-    const response = await fetch(`/api/advisories/${encodeURIComponent(advisory.id)}/ack`, {
-      method: "POST",
-      headers: { "content-type": "application/json" },
-      body: JSON.stringify({ by }),
-    });
-    const body = await response.json().catch(() => null);
-    if (!response.ok) {
-      window.alert(`Not acknowledged: ${body?.message ?? `the daemon answered HTTP ${response.status}`}`);
-      return;
-    }
-    try {
-      localStorage.setItem(NAME_KEY, by);
-    } catch {
-      // See above.
-    }
-    // Show the result at once; the daemon's next delta confirms it.
-    if (body?.advisory && state) {
-      const updated = body.advisory;
-      state = {
-        ...state,
-        advisories: state.advisories.map((a) => (a.id === updated.id ? updated : a)).filter((a) => a.state !== "normal"),
-      };
-      render();
-    }
-  } catch (err) {
-    window.alert(`Not acknowledged: the daemon cannot be reached (${err instanceof Error ? err.message : String(err)}).`);
-  } finally {
-    button.disabled = false;
-  }
+  more.hidden = below.length === 0 || box.height === 0;
+  const warningText = warnings === 0 ? "" : `, ${warnings} of them warning${warnings === 1 ? "" : "s"}`;
+  setText(more, `\u25bc ${below.length} more below${warningText} (scroll the list)`);
+  const top = annunciated[0];
+  document.title = top ? `(${annunciated.length}) ${top.tier}: ${top.title} · millwarden` : "millwarden · glance";
 }
 
 // ---- inerting ----

@@ -170,6 +170,12 @@ export class HealthMonitor implements Monitor {
     return null;
   }
 
+  /** The analyser's health state as of the last tick; null for an id not configured. */
+  stateOf(analyserId: string): AnalyserHealthState | null {
+    for (const e of this.entries) if (e.view.id === analyserId) return e.view.state;
+    return null;
+  }
+
   view(): { analysers: AnalyserView[] } {
     return { analysers: this.entries.map((e) => ({ ...e.view, reasons: [...e.view.reasons], signals: e.view.signals.map((s) => ({ ...s, reasons: [...s.reasons] })) })) };
   }

@@ -65,4 +65,10 @@ export class OxygenMonitor implements Monitor {
   view(): { units: UnitView[] } {
     return { units: this.views };
   }
+
+  /** The unit's inerting state as of the last tick; null when the unit has no oxygen section. */
+  inertingStateOf(unitId: string): InertingView["state"] | null {
+    for (const v of this.views) if (v.id === unitId) return v.inerting?.state ?? null;
+    return null;
+  }
 }

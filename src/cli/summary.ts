@@ -40,8 +40,11 @@ export function summarizeConfig(cfg: MillwardenConfig, file: string): string {
   for (const u of cfg.units) if (u.phase) lines.push(`phase of ${u.id}: from ${[u.phase.drivePower, u.phase.feed, u.phase.inletTemp, u.phase.inertFlow, u.phase.trip].filter(Boolean).join(", ")}`);
   for (const a of cfg.analysers) lines.push(`analyser ${a.id}: ${a.name}, frozen after ${a.frozenWindowS} s within ${a.frozenEpsilon}`);
   for (const r of cfg.rules) {
-    const t = Object.entries(r.tiers).map(([k, v]) => `${k} ${v}`).join(", ");
-    lines.push(`rule ${r.id}: ${r.quantity} ${r.direction === "high" ? ">=" : "<="} ${t}; on-delay ${r.onDelayS} s, deadband ${r.deadband}; origin: ${r.origin}`);
+    const when = r.states
+      ? `${r.quantity} is ${r.states.join(" or ")} (${r.tier})`
+      : `${r.quantity} ${r.direction === "high" ? ">=" : "<="} ${Object.entries(r.tiers ?? {}).map(([k, v]) => `${k} ${v}`).join(", ")}`;
+    const extras = [r.offDelayS ? `off-delay ${r.offDelayS} s` : "", r.reAlertS ? `re-alert ${r.reAlertS} s` : "", r.latching ? "latching" : "", r.phases ? `in ${r.phases.join(", ")}` : ""].filter(Boolean);
+    lines.push(`rule ${r.id}: ${when}; on-delay ${r.onDelayS} s, deadband ${r.deadband}${extras.length ? `, ${extras.join(", ")}` : ""}; origin: ${r.origin}`);
   }
   lines.push(`derived quantities: ${derivedQuantities(cfg).length}`);
   lines.push("Thresholds are advisory and must come from the site's own hazard study.");

@@ -4,7 +4,7 @@ import { readFileSync } from "node:fs";
 import { LineCounter, parseDocument, isNode, type Document } from "yaml";
 import { configSchema, type MillwardenConfig } from "./schema.js";
 import { unitDef, type Quantity } from "./units.js";
-import { derivedQuantities } from "../core/quantities.js";
+import { derivedQuantities, stateKeys } from "../core/quantities.js";
 import type { CheckContext, Path } from "./sections/context.js";
 import { checkOxygen } from "./sections/oxygen.js";
 import { checkDewPoints } from "./sections/dew-point.js";
@@ -162,11 +162,40 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   checkAnalysers(cfg, ctx);
 
   const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
+  const states = new Map(stateKeys(cfg).map((k) => [k.key, k]));
   cfg.rules.forEach((r, i) => {
     if (r.unit) needUnit(["rules", i, "unit"], r.unit);
+    if (r.phaseUnit) needUnit(["rules", i, "phaseUnit"], r.phaseUnit);
+    if (r.phases) {
+      const pu = r.phaseUnit ?? r.unit;
+      if (!pu) out.push(loc.at(["rules", i, "phases"], `phases need the unit whose phase decides: expected unit: or phaseUnit:`));
+      else if (units.has(pu) && !cfg.units.find((u) => u.id === pu)?.phase)
+        out.push(loc.at(["rules", i, "phases"], `unit "${pu}" has no phase section, so its phase is never known: expected a unit with phase:`));
+    }
+    if (r.states) {
+      // State rule: a state key, values it can take, one tier; no thresholds.
+      const k = states.get(r.quantity);
+      if (!k) {
+        const keys = [...states.keys()];
+        out.push(loc.at(["rules", i, "quantity"], `unknown state "${r.quantity}": a rule with states: watches a state key, expected one of ${keys.slice(0, 8).join(", ")}${keys.length > 8 ? ", ..." : ""}`));
+      } else {
+        r.states.forEach((v, j) => {
+          if (!k.values.includes(v)) out.push(loc.at(["rules", i, "states", j], `"${v}" is not a value of ${r.quantity}: expected one of ${k.values.join(", ")}`));
+        });
+      }
+      if (!r.tier) out.push(loc.at(["rules", i], `a rule with states: needs tier: (notice, caution or warning)`));
+      if (r.direction || r.tiers) out.push(loc.at(["rules", i, r.direction ? "direction" : "tiers"], `a rule with states: takes tier:, not direction: or tiers:`));
+      return;
+    }
+    if (!r.direction || !r.tiers) {
+      out.push(loc.at(["rules", i], `expected direction: (high or low) and tiers: for a threshold rule, or states: and tier: for a state rule`));
+      return;
+    }
+    if (r.tier) out.push(loc.at(["rules", i, "tier"], `tier: belongs to a state rule; a threshold rule gives tiers: with a threshold each`));
     if (!quantities.has(r.quantity)) {
       const near = [...quantities].filter((q) => q.split(".")[1] === r.quantity.split(".")[1] || q.startsWith(r.quantity.split(".")[0] ?? "")).slice(0, 6);
-      out.push(loc.at(["rules", i, "quantity"], `unknown quantity "${r.quantity}": expected a signal id or a derived key${near.length ? ` such as ${near.join(", ")}` : ""}`));
+      const hint = states.has(r.quantity) ? ` ("${r.quantity}" is a state key: give states: and tier:)` : near.length ? ` such as ${near.join(", ")}` : "";
+      out.push(loc.at(["rules", i, "quantity"], `unknown quantity "${r.quantity}": expected a signal id or a derived key${hint}`));
     }
     const t = r.tiers;
     const ordered = [t.notice, t.caution, t.warning].filter((x): x is number => x !== undefined);

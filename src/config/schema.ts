@@ -116,22 +116,63 @@ const tierThresholds = z
     message: "expected at least one of notice, caution, warning",
   });
 
+const millPhase = z.enum(["standstill-empty", "standstill-loaded", "warm-up", "inerting", "starting", "grinding", "stopping", "maintenance", "unknown"]);
+
 const rule = z.strictObject({
   id,
   title: text,
   unit: id.optional(),
-  /** A signal id or a derived key (see DEVELOPERS.md, "Derived keys"). */
+  /**
+   * A signal id or a derived key (see DEVELOPERS.md, "Derived keys"), or for a state rule a
+   * state key: phase.<unit>, inerting.<unit>, analyser.<id>.
+   */
   quantity: z.string().min(1),
-  direction: z.enum(["high", "low"]),
-  tiers: tierThresholds,
+  /** Threshold rule: direction and thresholds per tier. */
+  direction: z.enum(["high", "low"]).optional(),
+  tiers: tierThresholds.optional(),
+  /** State rule: active while the state key holds one of these values, at this tier. */
+  states: z.array(z.string().min(1)).min(1).optional(),
+  tier: z.enum(["notice", "caution", "warning"]).optional(),
   deadband: z.number().nonnegative().default(0),
+  /** The condition must hold this long before the advisory is raised (or escalated). */
   onDelayS: z.number().nonnegative().default(0),
+  /** The condition must be gone this long before the advisory clears (or de-escalates). */
+  offDelayS: z.number().nonnegative().default(0),
+  /** An acknowledged advisory still active after this long asks for acknowledgement again. */
+  reAlertS: z.number().positive().optional(),
+  /** After the condition clears the advisory stays until someone resets it. */
+  latching: z.boolean().default(false),
+  /** Phases of `phaseUnit` (default: `unit`) in which the rule applies; outside them it is suppressed by design. */
+  phases: z.array(millPhase).min(1).optional(),
+  phaseUnit: id.optional(),
+  /** Operator position the advisory goes to (flood and rates are counted per position). */
+  position: id.default("control-room"),
   cause: text,
   consequence: text,
   check: text,
   /** Where the thresholds come from: site hazard study, a named standard, or common practice. */
   origin: text,
 });
+
+/**
+ * Nuisance control and shelving limits. The defaults are the figures DESIGN.md §5 gives after
+ * ISA-18.2 / EEMUA 191 (from memory): chatter 3 raises in 60 s, flood more than 10 raises in
+ * 10 min ending below 5, standing over 24 h.
+ */
+const advisoryPolicy = z
+  .strictObject({
+    /** Longest shelve an operator may set (timed or one-shot). */
+    maxShelveS: positive.default(8 * 3600),
+    /** Whether a warning-tier advisory may be shelved at all (off unless the site decides otherwise). */
+    shelveWarnings: z.boolean().default(false),
+    chatterCount: z.number().int().min(2).default(3),
+    chatterWindowS: positive.default(60),
+    floodCount: z.number().int().min(2).default(10),
+    floodEndCount: z.number().int().min(1).default(5),
+    floodWindowS: positive.default(600),
+    standingS: positive.default(24 * 3600),
+  })
+  .default({ maxShelveS: 8 * 3600, shelveWarnings: false, chatterCount: 3, chatterWindowS: 60, floodCount: 10, floodEndCount: 5, floodWindowS: 600, standingS: 24 * 3600 });
 
 export const configSchema = z.strictObject({
   site: z.strictObject({
@@ -168,6 +209,7 @@ export const configSchema = z.strictObject({
   ...dewPointSection,
   ...coSection,
   ...analysersSection,
+  advisoryPolicy,
   rules: z.array(rule).default([]),
 });
 
@@ -183,3 +225,4 @@ export type UnitConfig = MillwardenConfig["units"][number];
 export type { DewPointConfig } from "./sections/dew-point.js";
 export type { CoPointConfig } from "./sections/co.js";
 export type RuleConfig = MillwardenConfig["rules"][number];
+export type AdvisoryPolicy = MillwardenConfig["advisoryPolicy"];

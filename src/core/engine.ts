@@ -4,7 +4,7 @@
 //   Sample ──▶ signal state (latest, quality, staleness) ──▶ analyser health, CO windows
 //   Tick(now) ──▶ phase (signals' own trust) ──▶ analyser health (needs the phase)
 //             ──▶ dew points, CO gradients, inerting state (full trust) ──▶ rules ──▶ advisory transitions
-//   Command ──▶ advisory lifecycle (acknowledge)
+//   Command ──▶ advisory lifecycle (acknowledge, reset, shelve, out of service: src/advisories)
 //
 // Samples only update state; everything derived is computed at a tick, once a second
 // live (wall clock) or at each whole second of the data's own time (replay).
@@ -15,26 +15,34 @@ import { CoMonitor } from "../analytics/co-monitor.js";
 import { OxygenMonitor } from "../analytics/oxygen-monitor.js";
 import { PhaseMonitor } from "../analytics/phase-monitor.js";
 import { HealthMonitor } from "../analytics/health-monitor.js";
-import { Advisory } from "../advisories/advisory.js";
+import type { Advisory, PersistedAdvisory, RuleInput } from "../advisories/advisory.js";
+import { AdvisoryBoard } from "../advisories/board.js";
+import { quantitySignals } from "../advisories/dependencies.js";
 import type { Monitor, TickContext } from "./calculator.js";
-import { derivedQuantities, type QuantityInfo } from "./quantities.js";
+import { derivedQuantities, stateKeys, type QuantityInfo } from "./quantities.js";
 import {
   ADVISORY_ONLY,
-  tierRank,
-  type AdvisoryTransition,
   type AdvisoryView,
   type Command,
   type CoreEvent,
   type DerivedValue,
   type PlantState,
   type Sample,
+  type StateChange,
 } from "./types.js";
 
 export type IngestOutcome = "accepted" | "unknown-signal" | "duplicate" | "out-of-order";
 
 export type CommandOutcome =
-  | { ok: true; events: AdvisoryTransition[]; advisory: AdvisoryView | null }
-  | { ok: false; status: 404 | 409; error: string };
+  | { ok: true; events: CoreEvent[]; advisory: AdvisoryView | null }
+  | { ok: false; status: 400 | 403 | 404 | 409; error: string };
+
+/** What a rule needs from the config besides itself: the signals its value comes from. */
+interface RuleWiring {
+  signals: string[];
+  /** Analysers of those signals. */
+  analysers: string[];
+}
 
 export class Engine {
   private readonly signals = new Map<string, SignalState>();
@@ -50,8 +58,11 @@ export class Engine {
    * signal whose analyser is not healthy is untrusted.
    */
   private readonly monitors: Monitor[];
-  private readonly advisories: Advisory[] = [];
-  private readonly advisoryById = new Map<string, Advisory>();
+  private readonly board: AdvisoryBoard;
+  private readonly wiring = new Map<string, RuleWiring>();
+  /** Discrete states (phase, inerting, analyser health) as of the last tick, to report changes. */
+  private readonly states = new Map<string, string | null>();
+  private readonly stateReaders: { key: string; read: () => string | null }[] = [];
   readonly quantities: QuantityInfo[];
   private readonly derived = new Map<string, number | null>();
   private nowMs = 0;
@@ -67,11 +78,20 @@ export class Engine {
     this.quantities = derivedQuantities(cfg);
     const info = new Map<string, { unit: string; label: string }>(this.quantities.map((q) => [q.key, q]));
     for (const s of this.signals.values()) info.set(s.cfg.id, { unit: s.unitSymbol, label: s.cfg.name });
+    const stateInfo = stateKeys(cfg);
+    for (const k of stateInfo) info.set(k.key, { unit: "", label: k.label });
+    for (const k of stateInfo) {
+      const [family, id] = k.key.split(".") as [string, string];
+      const read =
+        family === "phase" ? () => this.phases.phaseOf(id) : family === "inerting" ? () => this.oxygen.inertingStateOf(id) : () => this.health.stateOf(id);
+      this.stateReaders.push({ key: k.key, read });
+    }
+    this.board = new AdvisoryBoard(cfg.rules, (r) => info.get(r.quantity) ?? { unit: "", label: r.quantity }, cfg.advisoryPolicy);
+    const analyserOf = new Map(cfg.signals.map((s) => [s.id, s.analyser]));
     for (const r of cfg.rules) {
-      const q = info.get(r.quantity)!;
-      const a = new Advisory(r, q.unit, q.label);
-      this.advisories.push(a);
-      this.advisoryById.set(a.id, a);
+      const signals = r.states ? [] : quantitySignals(cfg, r.quantity);
+      const analysers = [...new Set(signals.flatMap((sid) => analyserOf.get(sid) ?? []))];
+      this.wiring.set(r.id, { signals, analysers });
     }
   }
 
@@ -124,33 +144,68 @@ export class Engine {
       if (m === this.health) fullTrust = true;
     }
 
-    for (const a of this.advisories) {
-      const q = a.rule.quantity;
-      let value: number | null;
-      if (this.derived.has(q)) value = this.derived.get(q)!;
-      else {
-        const t = this.trust(q, nowMs);
-        value = t.ok ? t.value : null;
-      }
-      for (const e of a.evaluate(value, nowMs)) out.push(e);
+    // Discrete states: report each change (replay sums time per state from these).
+    for (const { key, read } of this.stateReaders) {
+      const v = read();
+      if (this.states.get(key) === v && this.states.has(key)) continue;
+      this.states.set(key, v);
+      const e: StateChange = { kind: "state", atMs: nowMs, key, value: v };
+      out.push(e);
     }
+
+    for (const e of this.board.evaluate(nowMs, (a) => this.ruleInput(a, nowMs))) out.push(e);
     return out;
   }
 
+  /** A rule's value at this tick, and whether it is suppressed by design. */
+  private ruleInput(a: Advisory, nowMs: number): RuleInput {
+    const r = a.rule;
+    let value: number | null;
+    let stateText: string | null = null;
+    if (r.states) {
+      stateText = this.states.get(r.quantity) ?? null;
+      value = stateText === null ? null : r.states.includes(stateText) ? 1 : 0;
+    } else if (this.derived.has(r.quantity)) value = this.derived.get(r.quantity)!;
+    else {
+      const t = this.trust(r.quantity, nowMs);
+      value = t.ok ? t.value : null;
+    }
+    let suppressedBy: string | null = null;
+    if (r.phases) {
+      const unitId = (r.phaseUnit ?? r.unit)!;
+      const phase = this.phases.phaseOf(unitId) ?? "unknown";
+      if (!r.phases.includes(phase)) suppressedBy = `${unitId} is ${phase}; the rule applies in ${r.phases.join(", ")}`;
+    }
+    if (suppressedBy === null && value === null) {
+      const w = this.wiring.get(r.id)!;
+      const inCheck = w.analysers.find((id) => this.health.stateOf(id) === "function-check") ?? w.signals.find((id) => this.signals.get(id)!.functionCheck);
+      if (inCheck !== undefined) suppressedBy = `${inCheck} in function check`;
+    }
+    return { value, stateText, suppressedBy };
+  }
+
   command(cmd: Command): CommandOutcome {
-    const a = this.advisoryById.get(cmd.advisoryId);
-    if (!a) return { ok: false, status: 404, error: `no advisory "${cmd.advisoryId}": expected the id of an advisory in GET /api/advisories` };
-    const r = a.acknowledge(cmd.by, cmd.atMs, cmd.note);
-    if (!r.ok) return r;
-    return { ok: true, events: r.events, advisory: a.view() };
+    return this.board.command(cmd);
   }
 
   /** Current advisories: highest tier first, then newest. */
   currentAdvisories(): AdvisoryView[] {
-    return this.advisories
-      .map((a) => a.view())
-      .filter((v): v is AdvisoryView => v !== null)
-      .sort((x, y) => tierRank(y.tier) - tierRank(x.tier) || y.raisedAtMs - x.raisedAtMs);
+    return this.board.views();
+  }
+
+  /** Advisory states a restart must get back (the historian keeps them). */
+  persistAdvisories(): PersistedAdvisory[] {
+    return this.board.persist();
+  }
+
+  /** Take back advisory states kept before a restart; see AdvisoryBoard.restore. */
+  restoreAdvisories(saved: readonly PersistedAdvisory[], nowMs: number, shelvedBefore: readonly string[] = []) {
+    return this.board.restore(saved, nowMs, shelvedBefore);
+  }
+
+  /** Whether an operator position is in an advisory flood now. */
+  inFlood(position: string): boolean {
+    return this.board.inFlood(position);
   }
 
   /** The plant as of the last tick. */

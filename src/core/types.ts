@@ -31,11 +31,21 @@ export const TIERS: readonly Tier[] = ["notice", "caution", "warning"];
 export const tierRank = (t: Tier): number => TIERS.indexOf(t);
 
 /**
- * Advisory states, after ISA-18.2 / IEC 62682 (the subset built so far):
- * normal; active and unacknowledged; active and acknowledged;
- * returned to normal while still unacknowledged.
+ * Advisory states, after ISA-18.2 / IEC 62682:
+ * normal; active and unacknowledged; active and acknowledged; returned to normal while still
+ * unacknowledged; latched (returned to normal, kept until someone resets it); and the three
+ * states in which an advisory is not annunciated: shelved (by an operator, time-limited),
+ * suppressed by design (phase, analyser in function check) and out of service (administrative).
  */
-export type AdvisoryState = "normal" | "unack" | "ack" | "rtn-unack";
+export type AdvisoryState =
+  | "normal"
+  | "unack"
+  | "ack"
+  | "rtn-unack"
+  | "latched"
+  | "shelved"
+  | "suppressed"
+  | "out-of-service";
 
 /**
  * Inerting state per unit, our own names. "unknown" whenever the data behind it cannot be trusted;
@@ -43,14 +53,28 @@ export type AdvisoryState = "normal" | "unack" | "ack" | "rtn-unack";
  */
 export type InertingState = "inert" | "marginal" | "not-inert" | "purging" | "unknown";
 
-/** Commands from people, always with who, when and why. */
-export type Command = {
-  kind: "ack";
+/** Who may do what: out of service needs an engineer. */
+export type Role = "operator" | "engineer";
+
+interface CommandBase {
   advisoryId: string;
   by: string;
   atMs: number;
-  note?: string;
-};
+  role?: Role;
+}
+
+/** Commands from people, always with who, when and why. */
+export type Command =
+  | (CommandBase & { kind: "ack"; note?: string })
+  /** Reset a latched advisory once its condition has returned to normal. */
+  | (CommandBase & { kind: "reset"; note?: string })
+  /** Shelve: timed (durationS, at most the configured maximum) or one-shot (until the condition clears, within the maximum). */
+  | (CommandBase & { kind: "shelve"; reason: string; durationS?: number; oneShot?: boolean })
+  | (CommandBase & { kind: "unshelve"; reason?: string })
+  | (CommandBase & { kind: "out-of-service"; reason: string })
+  | (CommandBase & { kind: "return-to-service"; reason?: string });
+
+export type CommandKind = Command["kind"];
 
 /** An advisory as shown and stored. */
 export interface AdvisoryView {
@@ -80,7 +104,41 @@ export interface AdvisoryView {
   lastChangeMs: number;
   ackedBy: string | null;
   ackedAtMs: number | null;
+  /** Rule latches: after the condition clears it stays until reset. */
+  latching: boolean;
+  /** The condition is present now (false once returned to normal, and while unknown). */
+  conditionActive: boolean;
+  /** Shelved, suppressed or out of service: who, why and until when. */
+  shelvedUntilMs: number | null;
+  oneShot: boolean;
+  suppressedBy: string | null;
+  /** The person who shelved it or took it out of service, and the reason they gave. */
+  heldBy: string | null;
+  heldReason: string | null;
+  /** Nuisance marks (they never hide a warning from the screen). */
+  chattering: boolean;
+  firstOut: boolean;
+  standing: boolean;
+  position: string;
+  /** A state rule's states and the state now (null for a threshold rule). */
+  states: string[] | null;
+  stateValue: string | null;
 }
+
+export type TransitionKind =
+  | "raise"
+  | "escalate"
+  | "de-escalate"
+  | "ack"
+  | "clear"
+  | "re-alert"
+  | "reset"
+  | "shelve"
+  | "unshelve"
+  | "suppress"
+  | "unsuppress"
+  | "out-of-service"
+  | "return-to-service";
 
 /** One advisory lifecycle transition; every one is stored and pushed. */
 export interface AdvisoryTransition {
@@ -88,8 +146,12 @@ export interface AdvisoryTransition {
   atMs: number;
   advisoryId: string;
   ruleId: string;
-  /** raise (or re-raise) | escalate to a higher tier | de-escalate | ack | clear (condition returned to normal) */
-  transition: "raise" | "escalate" | "de-escalate" | "ack" | "clear";
+  /**
+   * raise (or re-raise) | escalate to a higher tier | de-escalate | ack | clear (condition returned
+   * to normal) | re-alert (acknowledged too long) | reset (of a latched advisory) | shelve | unshelve
+   * | suppress | unsuppress (by design) | out-of-service | return-to-service
+   */
+  transition: TransitionKind;
   from: AdvisoryState;
   to: AdvisoryState;
   tier: Tier;
@@ -98,6 +160,32 @@ export interface AdvisoryTransition {
   /** Who caused it: "millwarden" for rule evaluation, else the user. */
   by: string;
   why: string;
+}
+
+/**
+ * Nuisance control, per operator position (ISA-18.2 / EEMUA 191 figures in DESIGN.md §5):
+ * chatter (3 or more raises of one advisory within 60 s), flood (more than 10 raises within
+ * 10 min; ends below 5 within 10 min), standing (active over 24 h).
+ */
+export interface NuisanceEvent {
+  kind: "nuisance";
+  atMs: number;
+  type: "chatter" | "chatter-end" | "flood-start" | "flood-end" | "standing";
+  position: string;
+  /** The advisory concerned (chatter, standing), or the first-out advisory of a flood. */
+  advisoryId: string | null;
+  /** Raises counted in the window that decided it. */
+  count: number;
+  why: string;
+}
+
+/** A named discrete state changed: "phase.<unit>", "inerting.<unit>", "analyser.<id>". */
+export interface StateChange {
+  kind: "state";
+  atMs: number;
+  key: string;
+  /** null when it cannot be told. */
+  value: string | null;
 }
 
 /** A derived value as stored in the historian, keyed like "dewpoint.bf1-outlet.marginK". */
@@ -114,7 +202,7 @@ export interface DerivedValue {
   reason?: string;
 }
 
-export type CoreEvent = DerivedValue | AdvisoryTransition;
+export type CoreEvent = DerivedValue | AdvisoryTransition | NuisanceEvent | StateChange;
 
 // ---- The view model: what GET /api/state returns and /api/live patches. ----
 
@@ -154,7 +242,7 @@ export type PlantState = {
   site: { name: string; plant: string };
   nowMs: number;
   signals: SignalView[];
-  /** Active advisories and those returned to normal but not yet acknowledged. */
+  /** Advisories on screen: active, returned but unacknowledged, latched, shelved, out of service (AdvisoryBoard.views). */
   advisories: AdvisoryView[];
 } & ReturnType<OxygenMonitor["view"]> &
   ReturnType<DewPointMonitor["view"]> &

@@ -12,7 +12,7 @@ import { fileURLToPath } from "node:url";
 import { dirname, resolve } from "node:path";
 import type { MillwardenConfig } from "../config/schema.js";
 import { DataClock, Engine } from "../core/engine.js";
-import type { AdvisoryTransition, CoreEvent, Sample } from "../core/types.js";
+import type { AdvisoryTransition, Command, CoreEvent, Sample } from "../core/types.js";
 import { ADVISORY_ONLY } from "../core/types.js";
 import { Historian } from "../store/historian.js";
 import { MqttSource, type Source } from "../sources/mqtt.js";
@@ -92,6 +92,7 @@ export class Daemon {
   private async begin(): Promise<void> {
     const { config: cfg, log } = this.opts;
     this.sources = await this.makeSources();
+    this.restoreAdvisories();
     this.historian.start();
     this.feed.start();
     if (!this.dataClock) {
@@ -108,6 +109,23 @@ export class Daemon {
       log.info(`dashboard at ${srv.url}`);
     }
     log.info(`monitoring ${cfg.site.name}, ${cfg.site.plant}: ${cfg.signals.length} signals, ${cfg.rules.length} rules, clock ${cfg.clock}. ${ADVISORY_ONLY}`);
+  }
+
+  /**
+   * Take back the advisory states stored before a restart (acknowledgements, latches, shelves,
+   * out of service), so that an acknowledged advisory does not ring again. On the data clock
+   * the data's time is not known yet: shelves then expire at the first ticks instead.
+   */
+  private restoreAdvisories(): void {
+    const log = this.opts.log;
+    const { states, unreadable, shelvedAtStop } = this.historian.loadAdvisoryStates();
+    if (states.length === 0 && unreadable.length === 0 && shelvedAtStop.length === 0) return;
+    const nowMs = this.dataClock ? Math.max(0, ...states.map((p) => p.lastChangeMs)) : this.now();
+    const r = this.engine.restoreAdvisories(states, nowMs, shelvedAtStop);
+    this.record(r.events);
+    if (r.restored.length) log.info(`restored the state of ${r.restored.length} advisories: ${r.restored.join(", ")}`);
+    if (r.dropped.length) log.warn(`advisory states not restored (rule removed or changed): ${r.dropped.join(", ")}`);
+    if (unreadable.length) log.warn(`advisory states unreadable in the historian, judged afresh: ${unreadable.join(", ")}`);
   }
 
   /** Data time of the last tick (the core's "now"). */
@@ -148,13 +166,20 @@ export class Daemon {
     const transitions: AdvisoryTransition[] = [];
     for (const e of events) {
       if (e.kind === "derived") this.historian.appendDerived(e);
-      else {
+      else if (e.kind === "advisory") {
         this.historian.appendTransition(e);
         transitions.push(e);
         this.opts.log[e.tier === "warning" && e.transition !== "clear" ? "warn" : "info"](
           `advisory ${e.advisoryId} ${e.transition} (${e.from} -> ${e.to}, ${e.tier}) at ${new Date(e.atMs).toISOString()}: ${e.why} [advisory only]`,
         );
+      } else {
+        this.historian.appendEvent(e);
+        if (e.kind === "nuisance") this.opts.log.warn(`${e.type} at ${e.position}: ${e.why} [advisory only]`);
       }
+    }
+    if (transitions.length) {
+      const err = this.historian.saveAdvisoryStates(this.engine.persistAdvisories(), transitions[transitions.length - 1]!.atMs);
+      if (err) this.opts.log.warn(`advisory states not saved (a restart would judge them afresh): ${err}`);
     }
     this.feed.changed(transitions);
   }
@@ -185,12 +210,21 @@ export class Daemon {
         this.historian.flush();
         return { active: this.engine.currentAdvisories(), history: this.historian.transitions({ limit, newestFirst: true }) };
       },
-      acknowledge: (advisoryId, by, note) => {
+      command: (advisoryId, kind, body) => {
         const atMs = this.dataClock ? this.lastTickMs : this.now();
-        const r = this.engine.command({ kind: "ack", advisoryId, by, atMs, note });
+        const base = { advisoryId, by: body.by, atMs, ...(body.role ? { role: body.role } : {}) };
+        const cmd: Command =
+          kind === "ack" || kind === "reset"
+            ? { ...base, kind, ...(body.note !== undefined ? { note: body.note } : {}) }
+            : kind === "shelve"
+              ? { ...base, kind, reason: body.reason ?? "", ...(body.durationS !== undefined ? { durationS: body.durationS } : {}), ...(body.oneShot !== undefined ? { oneShot: body.oneShot } : {}) }
+              : kind === "out-of-service"
+                ? { ...base, kind, reason: body.reason ?? "" }
+                : { ...base, kind, ...(body.reason !== undefined ? { reason: body.reason } : {}) };
+        const r = this.engine.command(cmd);
         if (!r.ok) return r;
         this.record(r.events);
-        return { ok: true, advisory: r.advisory ?? this.engine.currentAdvisories().find((a) => a.id === advisoryId)! };
+        return { ok: true, advisory: r.advisory };
       },
       trend: (name, fromMs, toMs, points) => {
         if (!series.has(name)) throw new UnknownSeriesError(name);

@@ -5,7 +5,10 @@
 //   GET  /api/health               deps.health()          200 ok / 503 degraded
 //   GET  /api/state                deps.getState()
 //   GET  /api/advisories?limit=N   deps.advisories()
-//   POST /api/advisories/:id/ack   deps.acknowledge()     404 / 409 passed through
+//   POST /api/advisories/:id/<command>   deps.command()  200 {advisory} (null once normal);
+//        command: ack | reset | shelve | unshelve | out-of-service | return-to-service
+//        the daemon's 400 BAD_COMMAND / 403 FORBIDDEN / 404 ADVISORY_NOT_FOUND / 409 ADVISORY_CONFLICT
+//        pass through; another name is 404 UNKNOWN_COMMAND
 //   GET  /api/trend?signal&from&to&points deps.trend()
 //   WS   /api/live                 snapshot, then deps.subscribe() messages (live.ts)
 //   GET  /*                        files from deps.dashboardDir
@@ -17,7 +20,15 @@ import Fastify, { type FastifyError, type FastifyInstance, type FastifyReply } f
 import { UnknownSeriesError, type AppDeps } from "./deps.js";
 import { ApiError, describeFound, type ApiErrorBody, type ApiErrorCode } from "./errors.js";
 import { LiveHub, type LiveHubOptions } from "./live.js";
-import { parseAckBody, parseAdvisoryId, parseAdvisoryQuery, parseTrendQuery, rejectUnknown } from "./params.js";
+import {
+  ADVISORY_COMMANDS,
+  parseAdvisoryId,
+  parseAdvisoryQuery,
+  parseCommandBody,
+  parseCommandName,
+  parseTrendQuery,
+  rejectUnknown,
+} from "./params.js";
 
 export interface BuildAppOptions {
   /** Passed to fastify: false (default) for tests, true or a pino options object in the daemon. */
@@ -35,6 +46,14 @@ export interface TrendResponse {
 }
 
 type Query = Record<string, string | string[] | undefined>;
+
+/** The daemon's refusals of a command, by status. */
+const COMMAND_ERRORS = {
+  400: "BAD_COMMAND",
+  403: "FORBIDDEN",
+  404: "ADVISORY_NOT_FOUND",
+  409: "ADVISORY_CONFLICT",
+} as const satisfies Record<400 | 403 | 404 | 409, ApiErrorCode>;
 
 // Security headers until a full helmet setup arrives with login. The dashboard loads
 // only its own files, so everything else (framing included) is refused.
@@ -62,7 +81,7 @@ function sendError(reply: FastifyReply, status: number, code: ApiErrorCode, mess
 export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promise<FastifyInstance> {
   const app = Fastify({
     logger: opts.logger ?? false,
-    // The only body is an acknowledgement (name + note of at most 500 characters).
+    // The only bodies are commands on an advisory (a name and a note or reason of at most 500 characters).
     bodyLimit: 16 * 1024,
     // Longer than any advisory id we accept, so params.ts gives the precise message.
     routerOptions: { maxParamLength: 256 },
@@ -118,7 +137,7 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
       "NOT_FOUND",
       `${request.method} ${request.url.split("?")[0]}: no such route or file` +
         (request.url.startsWith("/api/")
-          ? "; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/ack, /api/trend, /api/live"
+          ? `; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/<command> (POST; command: ${ADVISORY_COMMANDS.join(", ")}), /api/trend, /api/live`
           : ""),
     ),
   );
@@ -149,21 +168,35 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     return deps.advisories({ limit });
   });
 
-  app.post<{ Params: { id: string } }>("/api/advisories/:id/ack", async (request, reply) => {
-    const id = parseAdvisoryId(request.params.id);
-    // Only JSON: a text/plain POST is a "simple" cross-site request a browser sends without asking.
-    const contentType = request.headers["content-type"] ?? "";
-    if (!/^application\/json\s*(;|$)/i.test(contentType)) {
-      throw new ApiError(
-        "UNSUPPORTED_MEDIA_TYPE",
-        `request body: expected Content-Type application/json, found ${describeFound(contentType || undefined)}`,
-      );
-    }
-    const body = parseAckBody(request.body);
-    const result = deps.acknowledge(id, body.by, body.note);
-    if (result.ok) return reply.code(200).send({ advisory: result.advisory });
-    return sendError(reply, result.status, result.status === 404 ? "ADVISORY_NOT_FOUND" : "ADVISORY_CONFLICT", result.error);
-  });
+  // Commands on an advisory, all timed by the daemon (never by the client). Until logins exist
+  // the role is declared in the body ("role": "engineer" for out-of-service and
+  // return-to-service) and taken at its word: it keeps an operator from a mistake, it does not
+  // keep anyone out. The path, the id and the content type are checked before the body is read.
+  app.post<{ Params: { id: string; command: string } }>(
+    "/api/advisories/:id/:command",
+    {
+      onRequest: async (request) => {
+        parseCommandName(request.params.command);
+        parseAdvisoryId(request.params.id);
+        // Only JSON: a text/plain POST is a "simple" cross-site request a browser sends without asking.
+        const contentType = request.headers["content-type"] ?? "";
+        if (!/^application\/json\s*(;|$)/i.test(contentType)) {
+          throw new ApiError(
+            "UNSUPPORTED_MEDIA_TYPE",
+            `request body: expected Content-Type application/json, found ${describeFound(contentType || undefined)}`,
+          );
+        }
+      },
+    },
+    async (request, reply) => {
+      const kind = parseCommandName(request.params.command);
+      const id = parseAdvisoryId(request.params.id);
+      const body = parseCommandBody(kind, request.body);
+      const result = deps.command(id, kind, body);
+      if (result.ok) return reply.code(200).send({ advisory: result.advisory });
+      return sendError(reply, result.status, COMMAND_ERRORS[result.status], result.error);
+    },
+  );
 
   app.get("/api/trend", async (request): Promise<TrendResponse> => {
     const { signal, fromMs, toMs, points: wanted } = parseTrendQuery(request.query as Query, () => deps.getState().nowMs);

@@ -1,7 +1,7 @@
 // What the HTTP server needs from the daemon. The server holds no plant state of its
 // own: it reads through these functions, so tests can hand it a small in-memory
 // implementation and the daemon hands it the live one.
-import type { AdvisoryTransition, AdvisoryView, LiveMessage, PlantState, Quality } from "../core/types.js";
+import type { AdvisoryTransition, AdvisoryView, CommandKind, LiveMessage, PlantState, Quality, Role } from "../core/types.js";
 
 export interface TrendPoint {
   tMs: number;
@@ -22,15 +22,31 @@ export interface HealthView {
 }
 
 export type AckResult =
-  | { ok: true; advisory: AdvisoryView }
-  | { ok: false; status: 404 | 409; error: string };
+  | { ok: true; advisory: AdvisoryView | null }
+  | { ok: false; status: 400 | 403 | 404 | 409; error: string };
+
+/** What a person sends with a command on an advisory (POST /api/advisories/:id/<command>). */
+export interface AdvisoryCommandBody {
+  by: string;
+  /** ack, reset: an optional note. */
+  note?: string;
+  /** shelve, out-of-service (required); unshelve, return-to-service (optional). */
+  reason?: string;
+  /** shelve: timed, in seconds (at most advisoryPolicy.maxShelveS). */
+  durationS?: number;
+  /** shelve: until the condition clears (within the maximum). */
+  oneShot?: boolean;
+  /** Until logins exist, the role is taken as declared; out-of-service needs "engineer". */
+  role?: Role;
+}
 
 export interface AppDeps {
   getState(): PlantState;
   health(): HealthView;
   /** Current advisories, and the latest transitions from the historian (newest first). */
   advisories(opts: { limit: number }): { active: AdvisoryView[]; history: AdvisoryTransition[] };
-  acknowledge(advisoryId: string, by: string, note?: string): AckResult;
+  /** A command on an advisory, timed by the daemon; the result carries the advisory as it is now (null once normal). */
+  command(advisoryId: string, kind: CommandKind, body: AdvisoryCommandBody): AckResult;
   /** Raw signal ids and derived keys both, about `points` points; throws UnknownSeriesError for anything else. */
   trend(series: string, fromMs: number, toMs: number, points: number): TrendPoint[];
   /** Register for live messages; returns the unsubscribe function. */

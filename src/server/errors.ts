@@ -11,8 +11,17 @@ export const API_ERRORS = {
   UNSUPPORTED_MEDIA_TYPE: { status: 415, doc: "The request body is not application/json." },
   UPGRADE_REQUIRED: { status: 426, doc: "The path is a WebSocket endpoint; plain HTTP requests are refused." },
   NOT_FOUND: { status: 404, doc: "No route or file at this path." },
-  ADVISORY_NOT_FOUND: { status: 404, doc: "No current advisory has this id." },
-  ADVISORY_CONFLICT: { status: 409, doc: "The advisory is not in a state that accepts the command (e.g. already acknowledged)." },
+  ADVISORY_NOT_FOUND: { status: 404, doc: "No advisory has this id (for ack: none is active under this id)." },
+  ADVISORY_CONFLICT: {
+    status: 409,
+    doc: "The advisory is not in a state that accepts the command (already acknowledged, not latched, not shelved, a warning the site does not let be shelved).",
+  },
+  UNKNOWN_COMMAND: {
+    status: 404,
+    doc: "The path names no advisory command; the commands are ack, reset, shelve, unshelve, out-of-service and return-to-service.",
+  },
+  BAD_COMMAND: { status: 400, doc: "The daemon refused the command as given (e.g. a shelve longer than the site's advisoryPolicy.maxShelveS)." },
+  FORBIDDEN: { status: 403, doc: "The declared role may not give this command (out of service and return to service need the engineer role)." },
   UNKNOWN_SERIES: { status: 404, doc: "The trend series is neither a signal id nor a derived key." },
   INTERNAL: { status: 500, doc: "Unexpected failure inside the server; details are in the server log only." },
 } as const satisfies Record<string, { status: number; doc: string }>;

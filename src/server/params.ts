@@ -1,6 +1,8 @@
 // Parsing and validation of what clients send. Pure functions: the current time is an
 // argument, so the trend defaults are deterministic. Each failure throws an ApiError
 // naming the parameter, what was expected and what was found.
+import type { CommandKind, Role } from "../core/types.js";
+import type { AdvisoryCommandBody } from "./deps.js";
 import { ApiError, describeFound } from "./errors.js";
 
 export const ADVISORY_LIMIT_DEFAULT = 100;
@@ -9,6 +11,8 @@ export const TREND_DEFAULT_SPAN_MS = 60 * 60 * 1000;
 export const TREND_MAX_SPAN_MS = 31 * 24 * 60 * 60 * 1000;
 export const ACK_BY_MAX_CHARS = 64;
 export const ACK_NOTE_MAX_CHARS = 500;
+/** A shelve's or an out-of-service's reason, as long as a note. */
+export const REASON_MAX_CHARS = 500;
 
 type QueryValue = string | string[] | undefined;
 
@@ -174,27 +178,106 @@ const CONTROL_CHARS = /[\u0000-\u001f\u007f-\u009f]/;
 /** Length in characters as people count them (code points), not UTF-16 units. */
 const charCount = (s: string): number => [...s].length;
 
-export function parseAckBody(body: unknown): AckBody {
+interface CommandSpec {
+  /** The body fields the command accepts; anything else is refused (a typo would lose it silently). */
+  fields: readonly (keyof AdvisoryCommandBody)[];
+  /** "the person ..." in the message about "by". */
+  doing: string;
+  /** When the command needs a reason: what the reason says. */
+  reasonFor?: string;
+  example: string;
+}
+
+/**
+ * The commands on an advisory (POST /api/advisories/:id/<command>) and the body each takes.
+ * The shape is checked here; whether the advisory's state allows the command, the role and
+ * the site's longest shelve are the daemon's to decide (its 400/403/404/409 pass through).
+ */
+const COMMANDS: Record<CommandKind, CommandSpec> = {
+  ack: { fields: ["by", "note"], doing: "acknowledging", example: '{"by": "A. Operator", "note": "..."}' },
+  reset: { fields: ["by", "note"], doing: "resetting the latched advisory", example: '{"by": "A. Operator", "note": "..."}' },
+  shelve: {
+    fields: ["by", "reason", "durationS", "oneShot"],
+    doing: "shelving",
+    reasonFor: "why the advisory is shelved",
+    example: '{"by": "A. Operator", "reason": "...", "durationS": 3600}',
+  },
+  unshelve: { fields: ["by", "reason"], doing: "unshelving", example: '{"by": "A. Operator"}' },
+  "out-of-service": {
+    fields: ["by", "reason", "role"],
+    doing: "taking the advisory out of service",
+    reasonFor: "why the advisory is taken out of service",
+    example: '{"by": "A. Engineer", "reason": "...", "role": "engineer"}',
+  },
+  "return-to-service": { fields: ["by", "reason", "role"], doing: "returning the advisory to service", example: '{"by": "A. Engineer", "role": "engineer"}' },
+};
+
+/** The six command names, in the order the API documents them. */
+export const ADVISORY_COMMANDS = Object.keys(COMMANDS) as CommandKind[];
+
+const ROLES: readonly Role[] = ["operator", "engineer"];
+
+/** '"a"', '"a" and "b"', '"a", "b" and "c"'. */
+function quotedList(names: readonly string[]): string {
+  const q = names.map((n) => `"${n}"`);
+  return q.length <= 1 ? q.join("") : `${q.slice(0, -1).join(", ")} and ${q.at(-1)}`;
+}
+
+export function parseCommandName(raw: string | undefined): CommandKind {
+  if (raw !== undefined && (ADVISORY_COMMANDS as string[]).includes(raw)) return raw as CommandKind;
+  throw new ApiError(
+    "UNKNOWN_COMMAND",
+    `path /api/advisories/:id/<command>: expected one of the commands ${ADVISORY_COMMANDS.join(", ")}, found ${describeFound(raw)}`,
+  );
+}
+
+/** A free text field (note, reason): trimmed; an empty optional one is dropped. */
+function textField(name: string, raw: unknown, opts: { required: string | null; controlChars: boolean }): string | undefined {
+  const max = name === "note" ? ACK_NOTE_MAX_CHARS : REASON_MAX_CHARS;
+  if (raw === undefined && opts.required === null) return undefined;
+  if (typeof raw !== "string") {
+    const what = opts.required === null ? `a string of at most ${max} characters` : `${opts.required} (a string of 1 to ${max} characters)`;
+    throw new ApiError("BAD_BODY", `request body field "${name}": expected ${what}, found ${describeFound(raw)}`);
+  }
+  if (charCount(raw) > max) {
+    throw new ApiError("BAD_BODY", `request body field "${name}": expected at most ${max} characters, found ${charCount(raw)}`);
+  }
+  const trimmed = raw.trim();
+  if (opts.controlChars && CONTROL_CHARS.test(trimmed)) {
+    throw new ApiError("BAD_BODY", `request body field "${name}": expected printable characters on one line, found a control character`);
+  }
+  if (trimmed === "") {
+    if (opts.required !== null) {
+      throw new ApiError("BAD_BODY", `request body field "${name}": expected ${opts.required} (1 to ${max} characters), found ${raw === "" ? "an empty string" : "only spaces"}`);
+    }
+    return undefined;
+  }
+  return trimmed;
+}
+
+/**
+ * The body of a command on an advisory. Each failure names the field, what was expected and
+ * what was found. Until logins exist, "role" is taken as the client declares it.
+ */
+export function parseCommandBody(kind: CommandKind, body: unknown): AdvisoryCommandBody {
+  const spec = COMMANDS[kind];
   if (body === null || typeof body !== "object" || Array.isArray(body)) {
-    throw new ApiError(
-      "BAD_BODY",
-      `request body: expected a JSON object such as {"by": "A. Operator", "note": "..."}, found ${describeFound(body)}`,
-    );
+    throw new ApiError("BAD_BODY", `request body for ${kind}: expected a JSON object such as ${spec.example}, found ${describeFound(body)}`);
   }
   const record = body as Record<string, unknown>;
-  // Refusing unknown fields catches typos ("notes") that would silently lose the note.
-  const unknown = Object.keys(record).filter((k) => k !== "by" && k !== "note");
+  // Refusing unknown fields catches typos ("notes") that would silently lose the text.
+  const unknown = Object.keys(record).filter((k) => !(spec.fields as readonly string[]).includes(k));
   if (unknown.length > 0) {
     throw new ApiError(
       "BAD_BODY",
-      `request body: expected only the fields "by" and "note", found ${unknown.map((k) => `"${k}"`).join(", ")}`,
+      `request body for ${kind}: expected only the fields ${quotedList(spec.fields)}, found ${unknown.map((k) => `"${k.slice(0, 40)}"`).join(", ")}`,
     );
   }
   const by = record["by"];
   if (typeof by !== "string") {
     throw new ApiError(
       "BAD_BODY",
-      `request body field "by": expected the name of the person acknowledging (a string of 1 to ${ACK_BY_MAX_CHARS} characters), found ${describeFound(by)}`,
+      `request body field "by": expected the name of the person ${spec.doing} (a string of 1 to ${ACK_BY_MAX_CHARS} characters), found ${describeFound(by)}`,
     );
   }
   const byTrimmed = by.trim();
@@ -207,22 +290,54 @@ export function parseAckBody(body: unknown): AckBody {
       `request body field "by": expected 1 to ${ACK_BY_MAX_CHARS} printable characters, found ${what}`,
     );
   }
-  const note = record["note"];
-  if (note === undefined) return { by: byTrimmed };
-  if (typeof note !== "string") {
+  const out: AdvisoryCommandBody = { by: byTrimmed };
+
+  // A note may span lines (as it always could); a reason is one line of the audit trail.
+  const note = textField("note", record["note"], { required: null, controlChars: false });
+  if (note !== undefined) out.note = note;
+  const reason = textField("reason", record["reason"], { required: spec.reasonFor ?? null, controlChars: true });
+  if (reason !== undefined) out.reason = reason;
+
+  const durationS = record["durationS"];
+  if (durationS !== undefined) {
+    if (typeof durationS !== "number" || !Number.isSafeInteger(durationS) || durationS < 1) {
+      throw new ApiError(
+        "BAD_BODY",
+        `request body field "durationS": expected a whole number of seconds, at least 1 (at most the site's advisoryPolicy.maxShelveS), found ${describeFound(durationS)}`,
+      );
+    }
+    out.durationS = durationS;
+  }
+  const oneShot = record["oneShot"];
+  if (oneShot !== undefined) {
+    if (typeof oneShot !== "boolean") {
+      throw new ApiError("BAD_BODY", `request body field "oneShot": expected true or false, found ${describeFound(oneShot)}`);
+    }
+    out.oneShot = oneShot;
+  }
+  if (kind === "shelve" && out.durationS === undefined && out.oneShot !== true) {
     throw new ApiError(
       "BAD_BODY",
-      `request body field "note": expected a string of at most ${ACK_NOTE_MAX_CHARS} characters, found ${describeFound(note)}`,
+      `request body for shelve: expected "durationS" (whole seconds) or "oneShot": true, found ${out.oneShot === false ? '"oneShot": false and no "durationS"' : "neither"}`,
     );
   }
-  if (charCount(note) > ACK_NOTE_MAX_CHARS) {
-    throw new ApiError(
-      "BAD_BODY",
-      `request body field "note": expected at most ${ACK_NOTE_MAX_CHARS} characters, found ${charCount(note)}`,
-    );
+  const role = record["role"];
+  if (role !== undefined) {
+    if (typeof role !== "string" || !(ROLES as readonly string[]).includes(role)) {
+      throw new ApiError(
+        "BAD_BODY",
+        `request body field "role": expected ${quotedList(ROLES).replace(" and ", " or ")} (declared by the client until logins exist), found ${describeFound(role)}`,
+      );
+    }
+    out.role = role as Role;
   }
-  const noteTrimmed = note.trim();
-  return noteTrimmed === "" ? { by: byTrimmed } : { by: byTrimmed, note: noteTrimmed };
+  return out;
+}
+
+/** The body of an acknowledgement: {by, note?}. */
+export function parseAckBody(body: unknown): AckBody {
+  const { by, note } = parseCommandBody("ack", body);
+  return note === undefined ? { by } : { by, note };
 }
 
 /** Advisory ids are rule ids (plus an instance): short printable text. */

@@ -33,7 +33,10 @@
 import { mkdirSync } from "node:fs";
 import { dirname, resolve } from "node:path";
 import Database from "better-sqlite3";
-import type { AdvisoryTransition, DerivedValue, Quality, Sample } from "../core/types.js";
+import type { PersistedAdvisory } from "../advisories/advisory.js";
+import type { AdvisoryTransition, DerivedValue, NuisanceEvent, Quality, Sample, StateChange } from "../core/types.js";
+
+export type PlantEvent = NuisanceEvent | StateChange;
 import { MINUTE_MS, minuteOf, rollupMinutes, type MinuteRollup } from "./chunk.js";
 import { downsample, type TrendInput } from "./downsample.js";
 import { exportLines } from "./export-csv.js";
@@ -273,7 +276,8 @@ export class Historian {
 
   private readonly samplesQ = new Fifo<Sample>();
   private readonly derivedQ = new Fifo<DerivedValue>();
-  private readonly transitionsQ = new Fifo<AdvisoryTransition>();
+  /** Advisory transitions and plant events (nuisance, state changes): the audit trail, kept longest. */
+  private readonly transitionsQ = new Fifo<AdvisoryTransition | PlantEvent>();
   /** name → series id, per kind. Cleared after a failed batch (its inserts were rolled back). */
   private readonly seriesIds: Record<SeriesKind, Map<string, number>> = { signal: new Map(), derived: new Map() };
   /** The unsealed rows, as committed. */
@@ -283,6 +287,7 @@ export class Historian {
 
   private readonly st: {
     insertTransition: Stmt;
+    insertEvent: Stmt;
     findSeries: Stmt;
     insertSeries: Stmt;
     seriesNames: Stmt;
@@ -325,6 +330,7 @@ export class Historian {
         "INSERT INTO advisory_transitions (at_ms, advisory_id, rule_id, transition, from_state, to_state, tier, value, limit_value, by_user, why) " +
           "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
       ),
+      insertEvent: db.prepare("INSERT INTO plant_events (at_ms, kind, name, body) VALUES (?, ?, ?, ?)"),
       findSeries: db.prepare("SELECT id FROM series WHERE kind = ? AND name = ?").pluck(),
       insertSeries: db.prepare("INSERT INTO series (kind, name) VALUES (?, ?)"),
       seriesNames: db.prepare("SELECT name FROM series WHERE kind = ? ORDER BY name").pluck(),
@@ -401,6 +407,71 @@ export class Historian {
     checkTransition(t);
     this.transitionsQ.push(t);
     this.enforceQueueBound();
+  }
+
+  /** A nuisance event or a state change; written with the advisory transitions. */
+  appendEvent(e: PlantEvent): void {
+    this.assertOpen("appendEvent");
+    if (e === null || typeof e !== "object" || (e.kind !== "nuisance" && e.kind !== "state"))
+      throw new TypeError(`Historian.appendEvent: expected a NuisanceEvent or StateChange object, found ${show(e)}`);
+    checkTime("appendEvent", "atMs", e.atMs, e.kind);
+    this.transitionsQ.push(e);
+    this.enforceQueueBound();
+  }
+
+  /** Plant events in time order (ties in the order they were appended). */
+  events(fromMs = Number.MIN_SAFE_INTEGER, toMs = Number.MAX_SAFE_INTEGER): PlantEvent[] {
+    this.assertOpen("events");
+    const rows = this.db.prepare("SELECT body FROM plant_events WHERE at_ms >= ? AND at_ms <= ? ORDER BY at_ms, id").pluck().all(Math.trunc(fromMs), Math.trunc(toMs)) as string[];
+    return rows.map((b) => JSON.parse(b) as PlantEvent);
+  }
+
+  /**
+   * Replace the stored advisory states with `states` (what a restart restores), in one
+   * transaction, at once: they are few and they must not wait for a batch. Returns the
+   * error text instead of throwing (the historian turns degraded; the core goes on).
+   */
+  saveAdvisoryStates(states: readonly PersistedAdvisory[], atMs: number): string | null {
+    this.assertOpen("saveAdvisoryStates");
+    try {
+      this.db.transaction(() => {
+        this.db.prepare("DELETE FROM advisory_state").run();
+        const ins = this.db.prepare("INSERT INTO advisory_state (advisory_id, body, updated_at_ms) VALUES (?, ?, ?)");
+        for (const p of states) ins.run(p.id, JSON.stringify(p), Math.trunc(atMs));
+      })();
+      return null;
+    } catch (err) {
+      this.lastError = `saving advisory states: ${describe(err)}`;
+      return this.lastError;
+    }
+  }
+
+  /**
+   * The advisory states stored before a restart. Rows that cannot be read are listed in
+   * `unreadable` (by advisory id), never thrown: a restart must not fail on them. `shelvedAtStop`
+   * lists the advisories whose last transition left them shelved, so that a shelve whose state
+   * was lost can be ended visibly.
+   */
+  loadAdvisoryStates(): { states: PersistedAdvisory[]; unreadable: string[]; shelvedAtStop: string[] } {
+    this.assertOpen("loadAdvisoryStates");
+    const states: PersistedAdvisory[] = [];
+    const unreadable: string[] = [];
+    for (const [id, body] of this.db.prepare("SELECT advisory_id, body FROM advisory_state ORDER BY advisory_id").raw().all() as [string, string][]) {
+      try {
+        const p = JSON.parse(body) as PersistedAdvisory;
+        if (p === null || typeof p !== "object" || p.id !== id || typeof p.ruleKey !== "string" || typeof p.alarmState !== "string") throw new Error("not an advisory state");
+        states.push(p);
+      } catch {
+        unreadable.push(id);
+      }
+    }
+    const shelvedAtStop = this.db
+      .prepare(
+        "SELECT t.advisory_id FROM advisory_transitions t JOIN (SELECT advisory_id, MAX(id) AS id FROM advisory_transitions GROUP BY advisory_id) l ON t.id = l.id WHERE t.to_state = 'shelved' ORDER BY t.advisory_id",
+      )
+      .pluck()
+      .all() as string[];
+    return { states, unreadable, shelvedAtStop };
   }
 
   /** Writes everything queued, one transaction per batch. Never throws for a database failure. */
@@ -785,6 +856,10 @@ export class Historian {
     const pend = this.pending as NonNullable<Historian["pending"]>;
     for (let i = 0; i < nT; i++) {
       const t = this.transitionsQ.at(i);
+      if (t.kind !== "advisory") {
+        st.insertEvent.run(Math.trunc(t.atMs), t.kind, t.kind === "state" ? t.key : t.type, JSON.stringify(t));
+        continue;
+      }
       st.insertTransition.run(
         Math.trunc(t.atMs),
         t.advisoryId,

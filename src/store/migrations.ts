@@ -133,6 +133,30 @@ export const MIGRATIONS: readonly Migration[] = [
       db.exec("DROP TABLE samples; DROP TABLE derived;");
     },
   },
+  {
+    version: 3,
+    description: "plant events (nuisance marks, state changes) and the advisory states a restart restores",
+    sql: `
+      -- Nuisance control (chatter, flood, standing) and discrete state changes (phase,
+      -- inerting state, analyser health): few rows, inserted only. body is the event as JSON.
+      CREATE TABLE plant_events (
+        id    INTEGER PRIMARY KEY,
+        at_ms INTEGER NOT NULL,
+        kind  TEXT NOT NULL CHECK (kind IN ('nuisance', 'state')),
+        name  TEXT NOT NULL,
+        body  TEXT NOT NULL
+      );
+      CREATE INDEX plant_events_at ON plant_events (at_ms);
+
+      -- One row per advisory that is not plainly normal (active, acknowledged, latched,
+      -- shelved, out of service): rewritten after every transition, read back at start.
+      CREATE TABLE advisory_state (
+        advisory_id   TEXT PRIMARY KEY,
+        body          TEXT NOT NULL,
+        updated_at_ms INTEGER NOT NULL
+      ) WITHOUT ROWID;
+    `,
+  },
 ];
 
 /** Quality codes from this one up are not usable values for roll-ups, per kind of series. */

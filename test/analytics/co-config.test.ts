@@ -151,8 +151,8 @@ describe("the demo plant (config/demo.yaml)", () => {
     // common practice: silo 10-20 ppm/h over 1-6 h
     const silo = rules.get("co-silo-fs2")!;
     expect(silo.quantity).toBe("co.fs2.riseLongPpmPerH");
-    expect(silo.tiers.caution).toBeGreaterThanOrEqual(10);
-    expect(silo.tiers.caution).toBeLessThanOrEqual(20);
+    expect(silo.tiers!.caution).toBeGreaterThanOrEqual(10);
+    expect(silo.tiers!.caution).toBeLessThanOrEqual(20);
     const fs2 = cfg.coPoints.find((p) => p.id === "fs2")!;
     expect(fs2.longWindowS).toBeGreaterThanOrEqual(3600);
     expect(fs2.longWindowS).toBeLessThanOrEqual(6 * 3600);

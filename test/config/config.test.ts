@@ -4,7 +4,7 @@ import { readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { loadConfig, parseConfig } from "../../src/config/load.js";
-import { problemsOf, SITE_AND_SOURCE } from "./helpers.js";
+import { lineOf, problemsOf, SITE_AND_SOURCE } from "./helpers.js";
 
 const CONFIG_DIR = join(import.meta.dirname, "../../config");
 const configFiles = readdirSync(CONFIG_DIR).filter((f) => /\.ya?ml$/.test(f));
@@ -83,6 +83,29 @@ describe("config errors name file, line, key, expectation and finding", () => {
       minimal +
       `rules:\n  - { id: r1, title: T, quantity: a.temp, direction: high, tiers: { caution: 90, warning: 80 }, cause: c, consequence: c, check: c, origin: common practice }\n`;
     expect(problemsOf(text)[0]!.message).toMatch(/rising from notice to warning/);
+  });
+
+  describe("advisory rules", () => {
+    const R = "cause: c, consequence: c, check: c, origin: common practice";
+    it("a state rule needs a state key, values it can take, and one tier", () => {
+      const bad = minimal + `rules:\n  - { id: r1, title: T, quantity: phase.u1, states: [grinding], tier: notice, ${R} }\n`;
+      // u1 has no phase section: phase.u1 is no state key.
+      expect(problemsOf(bad)[0]).toMatchObject({ key: "rules[0].quantity", message: expect.stringMatching(/unknown state "phase.u1"/) });
+      const noTier = minimal + `rules:\n  - { id: r1, title: T, quantity: a.temp, states: [x], ${R} }\n`;
+      expect(problemsOf(noTier).map((x) => x.message).join("\n")).toMatch(/needs tier:/);
+    });
+    it("a threshold rule needs direction and tiers, and no tier:", () => {
+      const text = minimal + `rules:\n  - { id: r1, title: T, quantity: a.temp, ${R} }\n`;
+      expect(problemsOf(text)[0]!.message).toMatch(/expected direction: \(high or low\) and tiers:/);
+      const both = minimal + `rules:\n  - { id: r1, title: T, quantity: a.temp, direction: high, tiers: { caution: 1 }, tier: caution, ${R} }\n`;
+      expect(problemsOf(both)[0]).toMatchObject({ key: "rules[0].tier" });
+    });
+    it("phases need a unit with a phase section", () => {
+      const text = minimal + `rules:\n  - { id: r1, title: T, quantity: a.temp, direction: high, tiers: { caution: 1 }, phases: [grinding], ${R} }\n`;
+      expect(problemsOf(text)[0]).toMatchObject({ key: "rules[0].phases", message: expect.stringMatching(/expected unit: or phaseUnit:/) });
+      const unknownPhase = minimal + `rules:\n  - { id: r1, title: T, unit: u1, quantity: a.temp, direction: high, tiers: { caution: 1 }, phases: [milling], ${R} }\n`;
+      expect(problemsOf(unknownPhase)[0]).toMatchObject({ key: "rules[0].phases[0]", line: lineOf(unknownPhase, "milling") });
+    });
   });
 
   it("YAML syntax errors carry the position", () => {

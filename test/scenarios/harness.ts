@@ -125,7 +125,7 @@ export function runCore(cfg: MillwardenConfig, samples: readonly Sample[]): Scen
     const derived = new Map<string, number | null>();
     for (const e of events) {
       if (e.kind === "advisory") transitions.push(e);
-      else derived.set(e.key, e.value);
+      else if (e.kind === "derived") derived.set(e.key, e.value);
     }
     ticks.push({ nowMs, state: engine.snapshot(), derived });
   };

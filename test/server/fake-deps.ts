@@ -1,37 +1,239 @@
 // An in-memory AppDeps for the server tests and for looking at the dashboard without
 // the daemon. Invented plant: Tarnholm Works, coal grinding line 2. The figures are
 // plausible for such a line but invented; nothing here is a reference value.
+//
+// The plant state is written out by hand; the advisories are not: they come from the real
+// advisory board (src/advisories), driven through an invented shift, so a command sent to the
+// fake meets the real lifecycle and its real 400/403/404/409 answers.
 import { fileURLToPath } from "node:url";
-import { ADVISORY_ONLY, type AdvisoryTransition, type AdvisoryView, type LiveMessage, type PlantState } from "../../src/core/types.js";
-import { UnknownSeriesError, type AckResult, type AppDeps, type HealthView, type TrendPoint } from "../../src/server/deps.js";
+import type { RuleInput } from "../../src/advisories/advisory.js";
+import { AdvisoryBoard } from "../../src/advisories/board.js";
+import type { AdvisoryPolicy, RuleConfig } from "../../src/config/schema.js";
+import {
+  ADVISORY_ONLY,
+  type AdvisoryTransition,
+  type AdvisoryView,
+  type Command,
+  type CommandKind,
+  type LiveMessage,
+  type PlantState,
+} from "../../src/core/types.js";
+import {
+  UnknownSeriesError,
+  type AckResult,
+  type AdvisoryCommandBody,
+  type AppDeps,
+  type HealthView,
+  type TrendPoint,
+} from "../../src/server/deps.js";
 
 export const DASHBOARD_DIR = fileURLToPath(new URL("../../dashboard/", import.meta.url));
 
 /** 2024-11-14 05:42:10 UTC: the fake plant's "now". */
 export const FAKE_NOW_MS = Date.UTC(2024, 10, 14, 5, 42, 10);
+const SEC = 1000;
 const MIN = 60_000;
+const HOUR = 60 * MIN;
 
-function advisory(partial: Partial<AdvisoryView> & Pick<AdvisoryView, "id" | "tier" | "title" | "quantity">): AdvisoryView {
+// ---- Advisories: the real board, driven through an invented shift ----
+
+/** The schema's defaults (the figures of DESIGN.md §5). */
+export const FAKE_POLICY: AdvisoryPolicy = {
+  maxShelveS: 8 * 3600,
+  shelveWarnings: false,
+  chatterCount: 3,
+  chatterWindowS: 60,
+  floodCount: 10,
+  floodEndCount: 5,
+  floodWindowS: 600,
+  standingS: 24 * 3600,
+};
+
+/** From `offsetMs` before (negative) the fake's now on, the rule's value, and why it is suppressed. */
+type Step = [offsetMs: number, value: number | null, suppressedBy?: string];
+
+interface ScriptedRule {
+  rule: RuleConfig;
+  unit: string;
+  label: string;
+  /** Before the first step the value is unknown. */
+  steps: Step[];
+}
+
+function rule(r: Pick<RuleConfig, "id" | "title" | "unit" | "quantity" | "tiers" | "check"> & Partial<RuleConfig>): RuleConfig {
   return {
-    ruleId: partial.id,
-    state: "unack",
-    unitId: null,
-    message: `${partial.title}. This is an advisory only; the plant's protection system governs.`,
-    value: null,
-    unit: "",
-    limit: 0,
     direction: "high",
+    deadband: 0,
+    onDelayS: 0,
+    offDelayS: 0,
+    latching: false,
+    position: "control-room",
     cause: "invented for tests",
     consequence: "invented for tests",
-    check: "invented for tests",
-    origin: "common practice",
-    raisedAtMs: FAKE_NOW_MS - MIN,
-    lastChangeMs: FAKE_NOW_MS - MIN,
-    ackedBy: null,
-    ackedAtMs: null,
-    ...partial,
+    origin: "common practice (invented for tests)",
+    ...r,
   };
 }
+
+const LOW_DEW = { notice: 20, caution: 15, warning: 5 };
+const LOW_O2 = { notice: 2, caution: 1, warning: 0 };
+
+const SCRIPT: ScriptedRule[] = [
+  {
+    rule: rule({ id: "co-rate-bf2-outlet", title: "CO rising at filter outlet", unit: "bf2", quantity: "co.bf2-outlet.gradientPpmPerMin", tiers: { caution: 5, warning: 15 }, check: "filter hopper temperatures and CO at the filter inlet" }),
+    unit: "ppm/min",
+    label: "CO gradient at the filter outlet",
+    steps: [[-3 * MIN, 6.8]],
+  },
+  {
+    // Acknowledged a day ago and still present: a standing advisory.
+    rule: rule({ id: "o2-margin-bf2", title: "O2 margin small at bag filter", unit: "bf2", quantity: "o2.bf2.marginPctPt", direction: "low", tiers: LOW_O2, check: "false air at the filter doors and rotary valves" }),
+    unit: "pt",
+    label: "O2 margin at the bag filter",
+    steps: [[-26 * HOUR, 0.9]],
+  },
+  {
+    rule: rule({ id: "co-rise-bf2-outlet", title: "CO far above baseline at filter outlet", unit: "bf2", quantity: "co.bf2-outlet.riseAboveBaselinePpm", tiers: { caution: 75, warning: 300 }, check: "filter hopper for smouldering deposits; follow the site's heating procedure" }),
+    unit: "ppm",
+    label: "CO above baseline at the filter outlet",
+    steps: [[-1 * MIN, 312]],
+  },
+  {
+    rule: rule({ id: "dew-margin-bf2-outlet", title: "Dew point margin below 20 K at filter outlet", unit: "bf2", quantity: "dewpoint.bf2-outlet.marginK", direction: "low", tiers: LOW_DEW, check: "hot-gas temperature and false air after the filter" }),
+    unit: "K",
+    label: "dew point margin at the filter outlet",
+    steps: [[-25 * MIN, 18.1]],
+  },
+  {
+    rule: rule({ id: "dew-margin-vm2-outlet", title: "Dew point margin below 20 K at mill outlet", unit: "vm2", quantity: "dewpoint.vm2-outlet.marginK", direction: "low", tiers: LOW_DEW, check: "warm-up ramp of the hot-gas generator" }),
+    unit: "K",
+    label: "dew point margin at the mill outlet",
+    steps: [
+      [-95 * MIN, 19.2],
+      [-40 * MIN, 38.5],
+    ],
+  },
+  {
+    // Latching: the peak has passed, the advisory stays until someone resets it.
+    rule: rule({ id: "co-peak-vm2-outlet", title: "CO peak above baseline at mill outlet", unit: "vm2", quantity: "co.vm2-outlet.riseAboveBaselinePpm", tiers: { caution: 75 }, latching: true, check: "mill table and classifier for deposits once the mill is stopped" }),
+    unit: "ppm",
+    label: "CO above baseline at the mill outlet",
+    steps: [
+      [-30 * MIN, 96],
+      [-10 * MIN, 22],
+    ],
+  },
+  {
+    // Shelved for a damper test; its condition has cleared since, the shelve runs on.
+    rule: rule({ id: "o2-time-vm2", title: "Mill O2 rising toward its limit", unit: "vm2", quantity: "o2.vm2.timeToLimitS", direction: "low", tiers: { caution: 600, warning: 180 }, check: "fresh-air damper and inert gas flow" }),
+    unit: "s",
+    label: "time to the O2 limit at the mill",
+    steps: [
+      [-22 * MIN, 480],
+      [-15 * MIN, 6300],
+    ],
+  },
+  {
+    // Suppressed by design while the silo analyser is in function check (condition still present).
+    rule: rule({ id: "co-rate-s21-top", title: "CO rising in silo S21", unit: "s21", quantity: "co.s21-top.gradientPpmPerMin", tiers: { caution: 0.5, warning: 2 }, check: "silo temperatures and the inert gas blanket" }),
+    unit: "ppm/min",
+    label: "CO gradient at the silo top",
+    steps: [
+      [-50 * MIN, 0.7],
+      [-6 * MIN, null, "s21-co in function check"],
+    ],
+  },
+  {
+    // Out of service: a failing thermocouple read low, then went open circuit.
+    rule: rule({ id: "dew-margin-bf2-hopper", title: "Dust hopper close to its water dew point", unit: "bf2", quantity: "dewpoint.bf2-hopper.marginK", direction: "low", tiers: LOW_DEW, check: "hopper heating and the hopper thermocouple" }),
+    unit: "K",
+    label: "dew point margin at the dust hopper",
+    steps: [
+      [-3 * HOUR, 31],
+      [-150 * MIN, 11],
+      [-1 * HOUR, null],
+    ],
+  },
+  {
+    // Chattering around its notice threshold (this invented rule has no deadband), now clear.
+    rule: rule({ id: "o2-margin-vm2", title: "O2 margin small at mill", unit: "vm2", quantity: "o2.vm2.marginPctPt", direction: "low", tiers: LOW_O2, check: "fresh-air damper and the mill door seals" }),
+    unit: "pt",
+    label: "O2 margin at the mill",
+    steps: [
+      [-240 * SEC, 1.9],
+      [-230 * SEC, 2.1],
+      [-220 * SEC, 1.9],
+      [-210 * SEC, 2.1],
+      [-200 * SEC, 1.9],
+      [-190 * SEC, 2.1],
+    ],
+  },
+];
+
+/** What people did during the invented shift. */
+function scriptedCommands(nowMs: number): Command[] {
+  return [
+    { kind: "ack", advisoryId: "o2-margin-bf2", by: "J. Ferris", atMs: nowMs - 25 * HOUR, note: "doors checked; rotary valve seal on the work list" },
+    { kind: "out-of-service", advisoryId: "dew-margin-bf2-hopper", by: "M. Okafor", role: "engineer", atMs: nowMs - 2 * HOUR, reason: "BF2-TT-215 reads low (failing thermocouple); replacement ordered" },
+    { kind: "shelve", advisoryId: "o2-time-vm2", by: "P. Lindqvist", atMs: nowMs - 20 * MIN, reason: "fresh-air damper stroke test by maintenance; O2 rise expected", durationS: 3600 },
+  ];
+}
+
+function inputAt(s: ScriptedRule, offsetMs: number): RuleInput {
+  let step: Step | undefined;
+  for (const st of s.steps) if (st[0] <= offsetMs) step = st;
+  return { value: step?.[1] ?? null, suppressedBy: step?.[2] ?? null };
+}
+
+/**
+ * The advisory board after the invented shift, evaluated at every change of the script and at
+ * `nowMs`, and its transitions (newest first, as the historian answers).
+ */
+export function fakeAdvisoryBoard(nowMs = FAKE_NOW_MS): { board: AdvisoryBoard; transitions: AdvisoryTransition[] } {
+  const byId = new Map(SCRIPT.map((s) => [s.rule.id, s]));
+  const board = new AdvisoryBoard(
+    SCRIPT.map((s) => s.rule),
+    (r) => ({ unit: byId.get(r.id)!.unit, label: byId.get(r.id)!.label }),
+    FAKE_POLICY,
+  );
+  const commands = scriptedCommands(nowMs);
+  const times = [...new Set([...SCRIPT.flatMap((s) => s.steps.map((st) => nowMs + st[0])), ...commands.map((c) => c.atMs), nowMs])].sort((a, b) => a - b);
+  const transitions: AdvisoryTransition[] = [];
+  const keep = (events: readonly { kind: string }[]) => {
+    for (const e of events) if (e.kind === "advisory") transitions.unshift(e as AdvisoryTransition);
+  };
+  for (const t of times) {
+    keep(board.evaluate(t, (a) => inputAt(byId.get(a.id)!, t - nowMs)));
+    for (const c of commands) {
+      if (c.atMs !== t) continue;
+      const r = board.command(c);
+      if (!r.ok) throw new Error(`fake advisory script: ${c.kind} of ${c.advisoryId} refused: ${r.error}`);
+      keep(r.events);
+    }
+  }
+  return { board, transitions };
+}
+
+/** The command the daemon builds from a request body (the same mapping as src/daemon). */
+function toCommand(advisoryId: string, kind: CommandKind, body: AdvisoryCommandBody, atMs: number): Command {
+  const base = { advisoryId, by: body.by, atMs, role: body.role };
+  switch (kind) {
+    case "ack":
+      return { ...base, kind, note: body.note };
+    case "reset":
+      return { ...base, kind, note: body.note };
+    case "shelve":
+      return { ...base, kind, reason: body.reason ?? "", durationS: body.durationS, oneShot: body.oneShot };
+    case "out-of-service":
+      return { ...base, kind, reason: body.reason ?? "" };
+    case "unshelve":
+      return { ...base, kind, reason: body.reason };
+    case "return-to-service":
+      return { ...base, kind, reason: body.reason };
+  }
+}
+
+// ---- The plant, by hand ----
 
 type CoPointView = PlantState["coPoints"][number];
 
@@ -114,7 +316,8 @@ function coPoint(p: Pick<CoPointView, "id" | "name" | "unitId" | "signal" | "coP
   };
 }
 
-export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
+/** The plant at `nowMs`; the advisories are those of the scripted board unless given. */
+export function fakePlantState(nowMs = FAKE_NOW_MS, advisories: AdvisoryView[] = fakeAdvisoryBoard(nowMs).board.views()): PlantState {
   const sig = (id: string, name: string, unit: string, value: number | null, extra: Partial<PlantState["signals"][number]> = {}) => ({
     id,
     name,
@@ -413,80 +616,7 @@ export function fakePlantState(nowMs = FAKE_NOW_MS): PlantState {
         ],
       },
     ],
-    advisories: [
-      advisory({
-        id: "co-rate-bf2-outlet",
-        tier: "caution",
-        title: "CO rising at filter outlet",
-        quantity: "co.bf2-outlet.gradientPpmPerMin",
-        unitId: "bf2",
-        value: 6.8,
-        unit: "ppm/min",
-        limit: 5,
-        raisedAtMs: nowMs - 3 * MIN,
-        lastChangeMs: nowMs - 3 * MIN,
-        check: "filter hopper temperatures and CO at the filter inlet",
-      }),
-      advisory({
-        id: "o2-margin-bf2",
-        tier: "caution",
-        state: "ack",
-        title: "O2 margin small at bag filter",
-        quantity: "o2.bf2.marginPctPt",
-        unitId: "bf2",
-        value: 0.9,
-        unit: "pt",
-        limit: 1,
-        direction: "low",
-        raisedAtMs: nowMs - 14 * MIN,
-        lastChangeMs: nowMs - 12 * MIN,
-        ackedBy: "J. Ferris",
-        ackedAtMs: nowMs - 12 * MIN,
-        check: "false air at the filter doors and rotary valves",
-      }),
-      advisory({
-        id: "co-rise-bf2-outlet",
-        tier: "warning",
-        title: "CO far above baseline at filter outlet",
-        quantity: "co.bf2-outlet.riseAboveBaselinePpm",
-        unitId: "bf2",
-        value: 312,
-        unit: "ppm",
-        limit: 300,
-        raisedAtMs: nowMs - 1 * MIN,
-        lastChangeMs: nowMs - 1 * MIN,
-        check: "filter hopper for smouldering deposits; follow the site's heating procedure",
-      }),
-      advisory({
-        id: "dew-margin-bf2-outlet",
-        tier: "notice",
-        title: "Dew point margin below 20 K at filter outlet",
-        quantity: "dewpoint.bf2-outlet.marginK",
-        unitId: "bf2",
-        value: 18.1,
-        unit: "K",
-        limit: 20,
-        direction: "low",
-        raisedAtMs: nowMs - 25 * MIN,
-        lastChangeMs: nowMs - 25 * MIN,
-        check: "hot-gas temperature and false air after the filter",
-      }),
-      advisory({
-        id: "dew-margin-vm2-outlet",
-        tier: "notice",
-        state: "rtn-unack",
-        title: "Dew point margin below 20 K at mill outlet",
-        quantity: "dewpoint.vm2-outlet.marginK",
-        unitId: "vm2",
-        value: 38.5,
-        unit: "K",
-        limit: 20,
-        direction: "low",
-        raisedAtMs: nowMs - 95 * MIN,
-        lastChangeMs: nowMs - 40 * MIN,
-        check: "warm-up ramp of the hot-gas generator",
-      }),
-    ],
+    advisories,
   };
 }
 
@@ -495,7 +625,7 @@ type DeltaFields = Omit<Extract<LiveMessage, { type: "delta" }>, "type" | "nowMs
 /** Calls the server made, so tests can see what it asked for. */
 export interface FakeCalls {
   advisories: { limit: number }[];
-  acknowledge: { id: string; by: string; note: string | undefined }[];
+  command: { id: string; kind: CommandKind; body: AdvisoryCommandBody }[];
   trend: { series: string; fromMs: number; toMs: number }[];
   getState: number;
 }
@@ -503,15 +633,22 @@ export interface FakeCalls {
 export class FakeDeps implements AppDeps {
   state: PlantState;
   healthStatus: "ok" | "degraded" = "ok";
-  transitions: AdvisoryTransition[] = [];
+  /** The real advisory board behind state.advisories. */
+  readonly board: AdvisoryBoard;
+  /** Newest first, as the historian answers. */
+  transitions: AdvisoryTransition[];
   /** Trend data per series: [tMs, value] at one-minute steps over the two hours before now. */
   series = new Map<string, TrendPoint[]>();
-  calls: FakeCalls = { advisories: [], acknowledge: [], trend: [], getState: 0 };
+  calls: FakeCalls = { advisories: [], command: [], trend: [], getState: 0 };
   readonly dashboardDir: string;
   private readonly listeners = new Set<(msg: LiveMessage) => void>();
 
   constructor(opts: { nowMs?: number; dashboardDir?: string } = {}) {
-    this.state = fakePlantState(opts.nowMs ?? FAKE_NOW_MS);
+    const nowMs = opts.nowMs ?? FAKE_NOW_MS;
+    const { board, transitions } = fakeAdvisoryBoard(nowMs);
+    this.board = board;
+    this.transitions = transitions;
+    this.state = fakePlantState(nowMs, board.views());
     this.dashboardDir = opts.dashboardDir ?? DASHBOARD_DIR;
     for (const s of this.state.signals) {
       const points: TrendPoint[] = [];
@@ -552,34 +689,18 @@ export class FakeDeps implements AppDeps {
     return { active: this.state.advisories, history: this.transitions.slice(0, opts.limit) };
   }
 
-  acknowledge(advisoryId: string, by: string, note?: string): AckResult {
-    this.calls.acknowledge.push({ id: advisoryId, by, note });
-    const current = this.state.advisories.find((a) => a.id === advisoryId);
-    if (current === undefined) return { ok: false, status: 404, error: `no current advisory with id "${advisoryId}"` };
-    if (current.state === "ack" || current.state === "normal") {
-      return { ok: false, status: 409, error: `advisory "${advisoryId}" is already acknowledged (by ${current.ackedBy ?? "?"})` };
-    }
-    const atMs = this.state.nowMs;
-    const to = current.state === "rtn-unack" ? "normal" : "ack";
-    const updated: AdvisoryView = { ...current, state: to, ackedBy: by, ackedAtMs: atMs, lastChangeMs: atMs };
-    const transition: AdvisoryTransition = {
-      kind: "advisory",
-      atMs,
-      advisoryId,
-      ruleId: current.ruleId,
-      transition: "ack",
-      from: current.state,
-      to,
-      tier: current.tier,
-      value: current.value,
-      limit: current.limit,
-      by,
-      why: note ?? "acknowledged",
-    };
-    this.transitions.unshift(transition);
-    const advisories = this.state.advisories.map((a) => (a.id === advisoryId ? updated : a)).filter((a) => a.state !== "normal");
-    this.update({ advisories, transitions: [transition] });
-    return { ok: true, advisory: updated };
+  /**
+   * As the daemon does: the command is timed by the daemon's clock (here the fake's data time),
+   * goes to the real advisory board, and its transitions follow as a delta with the whole list.
+   */
+  command(advisoryId: string, kind: CommandKind, body: AdvisoryCommandBody): AckResult {
+    this.calls.command.push({ id: advisoryId, kind, body });
+    const r = this.board.command(toCommand(advisoryId, kind, body, this.state.nowMs));
+    if (!r.ok) return r;
+    const transitions = r.events.filter((e): e is AdvisoryTransition => e.kind === "advisory");
+    this.transitions.unshift(...[...transitions].reverse());
+    this.update({ advisories: this.board.views(), transitions });
+    return { ok: true, advisory: r.advisory };
   }
 
   trend(series: string, fromMs: number, toMs: number): TrendPoint[] {

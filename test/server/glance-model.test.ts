@@ -1,40 +1,207 @@
 // Pure helpers of the glance screen (dashboard/glance-model.js). The rules come from
 // the dashboard brief: tier order warning > caution > notice then newest; stale signals
 // read "no data N min"; the lowest dew point margin leads (DESIGN.md §4); sparkline
-// history bounded in memory.
+// history bounded in memory; the held states of ISA-18.2 (shelved, suppressed by design,
+// out of service) listed apart and in words (DESIGN.md §5).
 import { describe, expect, it } from "vitest";
 import {
+  SHELVE_CHOICES,
+  advisoryActions,
+  advisoryMarks,
+  advisoryStateText,
+  commandBody,
   createHistory,
   formatAge,
+  formatClock,
+  formatDateTime,
   formatNumber,
   formatSigned,
+  formatWhen,
+  isHeld,
   lowestMargin,
+  needsAttention,
   o2BarGeometry,
   readSeries,
   recordPoint,
   pruneHistory,
   sortAdvisories,
   sparklineRuns,
+  splitAdvisories,
   staleText,
   worstTierFor,
 } from "../../dashboard/glance-model.js";
-import { fakePlantState, FAKE_NOW_MS } from "./fake-deps.js";
+import type { AdvisoryView } from "../../src/core/types.js";
+import { parseCommandBody } from "../../src/server/params.js";
+import { FAKE_POLICY, fakePlantState, FAKE_NOW_MS } from "./fake-deps.js";
 
 const MIN = 60_000;
+const HOUR = 60 * MIN;
+
+/** The fake plant's advisories by id (from the real advisory board, see fake-deps.ts). */
+function fakeAdvisory(id: string): AdvisoryView {
+  const a = fakePlantState().advisories.find((x) => x.id === id);
+  if (!a) throw new Error(`no fake advisory "${id}"`);
+  return a;
+}
 
 describe("sortAdvisories", () => {
   it("orders by tier (warning, caution, notice), then newest first, without touching the input", () => {
-    const list = fakePlantState().advisories;
+    const list = fakePlantState().advisories.reverse();
     const before = list.map((a) => a.id);
     const sorted = sortAdvisories(list);
-    expect(sorted.map((a) => [a.tier, a.raisedAtMs])).toEqual([
-      ["warning", FAKE_NOW_MS - 1 * MIN],
-      ["caution", FAKE_NOW_MS - 3 * MIN],
-      ["caution", FAKE_NOW_MS - 14 * MIN],
-      ["notice", FAKE_NOW_MS - 25 * MIN],
-      ["notice", FAKE_NOW_MS - 95 * MIN],
+    expect(sorted.map((a) => [a.tier, a.id, a.raisedAtMs - FAKE_NOW_MS])).toEqual([
+      ["warning", "co-rise-bf2-outlet", -1 * MIN],
+      ["caution", "co-rate-bf2-outlet", -3 * MIN],
+      ["caution", "o2-time-vm2", -22 * MIN],
+      ["caution", "co-peak-vm2-outlet", -30 * MIN],
+      ["caution", "co-rate-s21-top", -50 * MIN],
+      ["caution", "dew-margin-bf2-hopper", -150 * MIN],
+      ["caution", "o2-margin-bf2", -26 * HOUR],
+      ["notice", "o2-margin-vm2", -200_000],
+      ["notice", "dew-margin-bf2-outlet", -25 * MIN],
+      ["notice", "dew-margin-vm2-outlet", -95 * MIN],
     ]);
     expect(list.map((a) => a.id)).toEqual(before);
+  });
+});
+
+describe("advisory states in words", () => {
+  it("lists the held states apart, each part in tier order, a held warning included", () => {
+    const list = fakePlantState().advisories;
+    const { annunciated, held } = splitAdvisories(list);
+    expect(annunciated.map((a) => a.id)).toEqual([
+      "co-rise-bf2-outlet",
+      "co-rate-bf2-outlet",
+      "co-peak-vm2-outlet",
+      "o2-margin-bf2",
+      "o2-margin-vm2",
+      "dew-margin-bf2-outlet",
+      "dew-margin-vm2-outlet",
+    ]);
+    expect(held.map((a) => [a.id, a.state])).toEqual([
+      ["o2-time-vm2", "shelved"],
+      ["co-rate-s21-top", "suppressed"],
+      ["dew-margin-bf2-hopper", "out-of-service"],
+    ]);
+    // Warning tier is never hidden: held, it is still in the held list.
+    const heldWarning = { ...fakeAdvisory("co-rise-bf2-outlet"), state: "suppressed" as const, suppressedBy: "vm2 is stopping" };
+    expect(splitAdvisories([heldWarning]).held).toEqual([heldWarning]);
+    expect(isHeld(heldWarning)).toBe(true);
+  });
+
+  it("says who shelved it, why, until when and how long is left (data time)", () => {
+    const a = fakeAdvisory("o2-time-vm2");
+    const until = FAKE_NOW_MS + 40 * MIN;
+    expect(advisoryStateText(a, FAKE_NOW_MS)).toEqual({
+      word: "shelved",
+      text: `shelved by P. Lindqvist until ${formatClock(until)} (40 min left) \u00b7 condition now normal`,
+      detail: "reason: fresh-air damper stroke test by maintenance; O2 rise expected",
+      acked: true,
+    });
+    const oneShot = { ...a, oneShot: true, conditionActive: true };
+    expect(advisoryStateText(oneShot, FAKE_NOW_MS).text).toBe(`shelved by P. Lindqvist until it clears (at most until ${formatClock(until)})`);
+  });
+
+  it("says why an advisory is suppressed by design, and that it shows only while its condition is present", () => {
+    const s = advisoryStateText(fakeAdvisory("co-rate-s21-top"), FAKE_NOW_MS);
+    expect(s.word).toBe("suppressed");
+    expect(s.text).toBe("suppressed by design: s21-co in function check");
+    expect(s.detail).toContain("shown only while its condition is present");
+  });
+
+  it("says who took an advisory out of service and why", () => {
+    expect(advisoryStateText(fakeAdvisory("dew-margin-bf2-hopper"), FAKE_NOW_MS)).toEqual({
+      word: "out of service",
+      text: "out of service \u00b7 taken out by M. Okafor",
+      detail: "reason: BF2-TT-215 reads low (failing thermocouple); replacement ordered",
+      acked: true,
+    });
+  });
+
+  it("says a latched advisory waits for a reset, and whether anyone has acknowledged it", () => {
+    const latched = fakeAdvisory("co-peak-vm2-outlet");
+    expect(advisoryStateText(latched, FAKE_NOW_MS)).toMatchObject({ word: "latched", text: "returned to normal, kept until reset \u00b7 unacknowledged", acked: false });
+    expect(needsAttention(latched)).toBe(true);
+    const acked = { ...latched, ackedBy: "A. Operator", ackedAtMs: FAKE_NOW_MS };
+    expect(advisoryStateText(acked, FAKE_NOW_MS)).toMatchObject({ text: "returned to normal, kept until reset \u00b7 acknowledged by A. Operator", acked: true });
+    expect(needsAttention(acked)).toBe(false);
+  });
+
+  it("keeps the ordinary states' words", () => {
+    const acked = fakeAdvisory("o2-margin-bf2");
+    // Acknowledged a day ago: the time carries its date.
+    expect(advisoryStateText(acked, FAKE_NOW_MS)).toEqual({ word: null, text: `acknowledged by J. Ferris at ${formatDateTime(FAKE_NOW_MS - 25 * HOUR)}`, detail: null, acked: true });
+    expect(formatWhen(FAKE_NOW_MS - 11 * HOUR, FAKE_NOW_MS)).toBe(formatClock(FAKE_NOW_MS - 11 * HOUR));
+    expect(formatWhen(FAKE_NOW_MS - 12 * HOUR, FAKE_NOW_MS)).toBe(formatDateTime(FAKE_NOW_MS - 12 * HOUR));
+    expect(advisoryStateText(fakeAdvisory("co-rate-bf2-outlet"), FAKE_NOW_MS).text).toBe("unacknowledged");
+    expect(advisoryStateText(fakeAdvisory("dew-margin-vm2-outlet"), FAKE_NOW_MS).text).toBe("returned to normal \u00b7 unacknowledged");
+  });
+
+  it.each([
+    ["co-rate-bf2-outlet", true],
+    ["dew-margin-vm2-outlet", true],
+    ["o2-margin-bf2", false],
+    ["o2-time-vm2", false],
+    ["co-rate-s21-top", false],
+    ["dew-margin-bf2-hopper", false],
+  ])("needsAttention(%s) = %s", (id, expected) => {
+    expect(needsAttention(fakeAdvisory(id))).toBe(expected);
+  });
+});
+
+describe("advisory actions and marks", () => {
+  it.each([
+    // warning, unacknowledged: acknowledge only, never offered for shelving
+    ["co-rise-bf2-outlet", ["ack"]],
+    ["co-rate-bf2-outlet", ["ack", "shelve"]],
+    // acknowledged and present: it can still be shelved
+    ["o2-margin-bf2", ["shelve"]],
+    // returned to normal: nothing left to shelve
+    ["dew-margin-vm2-outlet", ["ack"]],
+    ["co-peak-vm2-outlet", ["reset"]],
+    ["o2-time-vm2", ["unshelve"]],
+    // by design and administrative: nothing for an operator on this screen
+    ["co-rate-s21-top", []],
+    ["dew-margin-bf2-hopper", []],
+  ])("%s offers %j", (id, actions) => {
+    expect(advisoryActions(fakeAdvisory(id))).toEqual(actions);
+  });
+
+  it("names the nuisance marks as words", () => {
+    expect(advisoryMarks(fakeAdvisory("o2-margin-vm2"))).toEqual(["chattering"]);
+    expect(advisoryMarks(fakeAdvisory("o2-margin-bf2"))).toEqual(["standing"]);
+    expect(advisoryMarks(fakeAdvisory("co-rate-bf2-outlet"))).toEqual([]);
+    expect(advisoryMarks({ firstOut: true, chattering: true, standing: true })).toEqual(["first out", "chattering", "standing"]);
+  });
+});
+
+describe("commandBody", () => {
+  it("builds the body the API takes, for every shelve choice", () => {
+    for (const choice of SHELVE_CHOICES) {
+      const made = commandBody("shelve", { by: " A. Operator ", reason: " purge ", choice: choice.id });
+      expect(made.error).toBeUndefined();
+      const body = made.body!;
+      // What the form sends passes the server's own validation unchanged.
+      expect(parseCommandBody("shelve", body)).toEqual(body);
+      expect(body).toEqual(choice.oneShot ? { by: "A. Operator", reason: "purge", oneShot: true } : { by: "A. Operator", reason: "purge", durationS: choice.durationS });
+      // No timed choice beyond the schema's default longest shelve (advisoryPolicy.maxShelveS).
+      if (!choice.oneShot) expect(choice.durationS).toBeLessThanOrEqual(FAKE_POLICY.maxShelveS);
+    }
+    expect(SHELVE_CHOICES.map((c) => c.label)).toEqual(["15 min", "1 h", "4 h", "8 h", "until it clears (one-shot)"]);
+    expect(commandBody("ack", { by: "A. Operator", reason: "ignored" })).toEqual({ body: { by: "A. Operator" } });
+  });
+
+  it.each([
+    ["ack", { by: "  " }, /Your name is needed/],
+    ["reset", { by: "x".repeat(65) }, /longer than 64 characters/],
+    ["shelve", { by: "A", reason: " ", choice: "1h" }, /A reason is needed to shelve/],
+    ["shelve", { by: "A", reason: "r".repeat(501), choice: "1h" }, /reason is longer than 500 characters/],
+    ["shelve", { by: "A", reason: "purge", choice: null }, /Choose how long/],
+    ["shelve", { by: "A", reason: "purge", choice: "2d" }, /Choose how long/],
+  ] as const)("%s %j says what is missing", (kind, fields, why) => {
+    const made = commandBody(kind, fields);
+    expect(made.body).toBeUndefined();
+    expect(made.error).toMatch(why);
   });
 });
 
@@ -92,12 +259,19 @@ describe("lowestMargin and worstTierFor", () => {
     expect(lowestMargin(state.dewPoints.map((p) => ({ ...p, status: "unknown" as const, marginK: null })))).toBeNull();
   });
 
-  it("finds the worst active tier pointing at an element, ignoring returned-to-normal ones", () => {
+  it("finds the worst active tier pointing at an element, ignoring returned, latched and held ones", () => {
     const { advisories } = fakePlantState();
     expect(worstTierFor(advisories, "co", "bf2-outlet")).toBe("warning");
     expect(worstTierFor(advisories, "dewpoint", "bf2-outlet")).toBe("notice");
+    expect(worstTierFor(advisories, "o2", "bf2")).toBe("caution");
+    // rtn-unack
     expect(worstTierFor(advisories, "dewpoint", "vm2-outlet")).toBeNull();
+    // latched
     expect(worstTierFor(advisories, "co", "vm2-outlet")).toBeNull();
+    // suppressed, out of service, shelved (and a returned one beside it)
+    expect(worstTierFor(advisories, "co", "s21-top")).toBeNull();
+    expect(worstTierFor(advisories, "dewpoint", "bf2-hopper")).toBeNull();
+    expect(worstTierFor(advisories, "o2", "vm2")).toBeNull();
   });
 });
 

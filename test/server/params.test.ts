@@ -3,8 +3,12 @@ import { ApiError } from "../../src/server/errors.js";
 import {
   ACK_BY_MAX_CHARS,
   ACK_NOTE_MAX_CHARS,
+  ADVISORY_COMMANDS,
+  REASON_MAX_CHARS,
   parseAckBody,
   parseAdvisoryLimit,
+  parseCommandBody,
+  parseCommandName,
   parseTimeMs,
   parseTrendQuery,
 } from "../../src/server/params.js";
@@ -176,6 +180,57 @@ describe("parseAckBody", () => {
     [{ by: "A", notes: "typo" }, /expected only the fields "by" and "note", found "notes"/],
   ])("refuses %j", (body, why) => {
     const err = apiError(() => parseAckBody(body));
+    expect(err.code).toBe("BAD_BODY");
+    expect(err.message).toMatch(why);
+  });
+});
+
+describe("parseCommandName", () => {
+  // The six commands of the advisory lifecycle (src/core/types.ts Command), in the API's order.
+  it("knows the six commands", () => {
+    expect(ADVISORY_COMMANDS).toEqual(["ack", "reset", "shelve", "unshelve", "out-of-service", "return-to-service"]);
+    for (const c of ADVISORY_COMMANDS) expect(parseCommandName(c)).toBe(c);
+  });
+
+  it.each(["", "Ack", "acknowledge", "suppress", "__proto__", "toString", undefined])("refuses %j with a 404 naming the six", (raw) => {
+    const err = apiError(() => parseCommandName(raw));
+    expect(err.code).toBe("UNKNOWN_COMMAND");
+    expect(err.statusCode).toBe(404);
+    expect(err.message).toContain("expected one of the commands ack, reset, shelve, unshelve, out-of-service, return-to-service");
+  });
+});
+
+describe("parseCommandBody", () => {
+  it("keeps what each command takes, trimmed, and nothing else", () => {
+    expect(parseCommandBody("reset", { by: " A ", note: " done " })).toEqual({ by: "A", note: "done" });
+    expect(parseCommandBody("shelve", { by: "A", reason: " purge ", durationS: 900 })).toEqual({ by: "A", reason: "purge", durationS: 900 });
+    expect(parseCommandBody("shelve", { by: "A", reason: "purge", oneShot: true })).toEqual({ by: "A", reason: "purge", oneShot: true });
+    // A one-shot may carry its own bound; the daemon caps it at the site's maximum.
+    expect(parseCommandBody("shelve", { by: "A", reason: "purge", oneShot: true, durationS: 600 })).toEqual({ by: "A", reason: "purge", oneShot: true, durationS: 600 });
+    expect(parseCommandBody("unshelve", { by: "A" })).toEqual({ by: "A" });
+    expect(parseCommandBody("unshelve", { by: "A", reason: "" })).toEqual({ by: "A" });
+    expect(parseCommandBody("out-of-service", { by: "E", reason: "r", role: "engineer" })).toEqual({ by: "E", reason: "r", role: "engineer" });
+    // The role is optional here: without it the daemon answers 403 (see app.test.ts).
+    expect(parseCommandBody("return-to-service", { by: "E" })).toEqual({ by: "E" });
+  });
+
+  it("counts a reason in characters and allows exactly the maximum", () => {
+    const wide = "\u{1D49C}";
+    expect(parseCommandBody("shelve", { by: "A", reason: wide.repeat(REASON_MAX_CHARS), oneShot: true }).reason).toHaveLength(2 * REASON_MAX_CHARS);
+    expect(apiError(() => parseCommandBody("shelve", { by: "A", reason: wide.repeat(REASON_MAX_CHARS + 1), oneShot: true })).message).toBe(
+      `request body field "reason": expected at most ${REASON_MAX_CHARS} characters, found ${REASON_MAX_CHARS + 1}`,
+    );
+  });
+
+  it.each([
+    ["shelve", { by: "A", reason: "r", durationS: Number.MAX_SAFE_INTEGER + 2 }, /"durationS": expected a whole number of seconds/],
+    ["shelve", { by: "A", reason: "r", durationS: -60 }, /found number -60/],
+    ["shelve", { by: "A", reason: "r\u0007", oneShot: true }, /found a control character/],
+    ["out-of-service", { by: "A", reason: "", role: "engineer" }, /"reason": expected why the advisory is taken out of service \(1 to 500 characters\), found an empty string/],
+    ["out-of-service", { by: "A", reason: "r", role: "Engineer" }, /"role": expected "operator" or "engineer" .* found "Engineer"/],
+    ["unshelve", "A", /request body for unshelve: expected a JSON object such as \{"by": "A. Operator"\}, found "A"/],
+  ] as const)("refuses %s %j", (kind, body, why) => {
+    const err = apiError(() => parseCommandBody(kind, body));
     expect(err.code).toBe("BAD_BODY");
     expect(err.message).toMatch(why);
   });

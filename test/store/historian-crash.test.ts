@@ -75,15 +75,16 @@ function runAndKill(path: string, afterMs: number, sealTarget: boolean, delayMs:
       while ((nl = buf.indexOf("\n")) >= 0) {
         const line = buf.slice(0, nl);
         buf = buf.slice(nl + 1);
-        if (killed) continue;
-        const seal = /^seal (\d+)$/.exec(line);
+        // Lines still in the pipe after the kill were written before it: they count for what
+        // the file may hold (on a loaded machine the parent reads them late).
+        const seal = killed ? null : /^seal (\d+)$/.exec(line);
         if (seal) {
           sealOpen = true;
           seals++;
           if (armed && Number(seal[1]) >= 30_000) setTimeout(kill, delayMs);
           continue;
         }
-        if (line === "sealed") {
+        if (!killed && line === "sealed") {
           sealOpen = false;
           continue;
         }
@@ -93,6 +94,7 @@ function runAndKill(path: string, afterMs: number, sealTarget: boolean, delayMs:
         if (m[1] === "begin") begun = totals;
         else {
           flushed = totals;
+          if (killed) continue;
           flushes++;
           // From the fourth commit on: some flushes and seals are in the file by then.
           if (flushes === 4) timer = setTimeout(() => (sealTarget ? (armed = true) : kill()), afterMs);
@@ -101,7 +103,8 @@ function runAndKill(path: string, afterMs: number, sealTarget: boolean, delayMs:
     });
     child.stderr.on("data", (c: Buffer) => (stderr += c.toString()));
     child.on("error", reject);
-    child.on("exit", (code, signal) => {
+    // "close", not "exit": it comes after stdout is drained.
+    child.on("close", (code, signal) => {
       if (timer) clearTimeout(timer);
       if (signal !== "SIGKILL" || flushed === null || begun === null) {
         reject(new Error(`crash writer ended with code ${code}, signal ${signal}, before being killed; stderr: ${stderr}`));

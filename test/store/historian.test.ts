@@ -352,18 +352,20 @@ describe("Historian file", () => {
     expect(rows).toEqual([
       { version: 1, applied_at_ms: T0 },
       { version: 2, applied_at_ms: T0 },
+      { version: 3, applied_at_ms: T0 },
     ]);
-    expect(userVersion).toBe(2);
-    expect(LATEST_SCHEMA_VERSION).toBe(2);
+    expect(userVersion).toBe(3);
+    expect(LATEST_SCHEMA_VERSION).toBe(3);
     expect(application).toBe("millwarden");
   });
 
-  it("creates the tables of migration 2 as specified", () => {
+  it("creates the tables of migrations 2 and 3 as specified", () => {
     openHistorian();
     const tables = peek("hist.db", (db) =>
       db.prepare("SELECT name, sql FROM sqlite_master WHERE type IN ('table', 'index') AND name NOT LIKE 'sqlite_%' ORDER BY name").all(),
     ) as { name: string; sql: string }[];
     expect(tables.map((t) => t.name)).toEqual([
+      "advisory_state",
       "advisory_transitions",
       "advisory_transitions_advisory_at",
       "advisory_transitions_at",
@@ -371,6 +373,8 @@ describe("Historian file", () => {
       "chunks_last",
       "chunks_series_last",
       "meta",
+      "plant_events",
+      "plant_events_at",
       "recent",
       "rollups_1m",
       "schema_migrations",
