@@ -12,6 +12,7 @@ import { ADVISORY_ONLY } from "../core/types.js";
 import { runSimulator } from "../sim/publish.js";
 import { scenarioNames } from "../sim/plant.js";
 import { summarizeConfig } from "./summary.js";
+import { replayCommand } from "./replay.js";
 
 const ROOT = resolve(fileURLToPath(import.meta.url), "../../..");
 export const DEMO_CONFIG = resolve(ROOT, "config/demo.yaml");
@@ -25,6 +26,8 @@ usage:
   millwarden check --config FILE
   millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
   millwarden export --config FILE --from T --to T [--signals ID,ID] > FILE.csv   history as CSV (time,signal,value,quality)
+  millwarden replay --config FILE --input FILE [--from T --to T] [--out events.jsonl] [--compare OTHER.yaml] [--position NAME] [--json]
+                                                history (CSV or historian) through the core: events and the alarm-management summary
   millwarden pki list|show [--pki DIR]          OPC UA certificates: trusted and rejected servers, our own
   millwarden pki trust FILE [--pki DIR]         trust a server certificate (compare its thumbprint first)
 
@@ -298,6 +301,8 @@ export async function main(argv: string[]): Promise<number> {
         return await cmdPki(rest);
       case "export":
         return await cmdExport(rest);
+      case "replay":
+        return await replayCommand(rest);
       case undefined:
       case "help":
       case "--help":
