@@ -198,8 +198,13 @@ export const configSchema = z.strictObject({
       sealIntervalS: positive.default(300),
       /** Disk budget: the oldest expired data is pruned first to stay under it. */
       maxDatabaseBytes: z.number().int().positive().optional(),
+      /**
+       * Warm start: at most this much recent history is replayed through the core at start, to
+       * refill its windows and baselines (the longest window the config uses, at least an hour).
+       */
+      warmStartMaxS: z.number().nonnegative().default(6 * 3600),
     })
-    .default({ path: "data/millwarden.db", synchronous: "NORMAL", rawRetentionDays: 30, rollupRetentionDays: 365, sealIntervalS: 300 }),
+    .default({ path: "data/millwarden.db", synchronous: "NORMAL", rawRetentionDays: 30, rollupRetentionDays: 365, sealIntervalS: 300, warmStartMaxS: 6 * 3600 }),
   server: z
     .strictObject({ host: z.string().min(1).default("127.0.0.1"), port: z.number().int().min(0).max(65535).default(8480) })
     .default({ host: "127.0.0.1", port: 8480 }),

@@ -37,6 +37,14 @@ export type CommandOutcome =
   | { ok: true; events: CoreEvent[]; advisory: AdvisoryView | null }
   | { ok: false; status: 400 | 403 | 404 | 409; error: string };
 
+export interface TickOptions {
+  /**
+   * false: compute every indicator but evaluate no rule. A warm start replays recent history
+   * this way to refill the windows and baselines without raising anything from the past.
+   */
+  rules?: boolean;
+}
+
 /** What a rule needs from the config besides itself: the signals its value comes from. */
 interface RuleWiring {
   signals: string[];
@@ -123,7 +131,7 @@ export class Engine {
   }
 
   /** Compute every derived value at `nowMs`, then evaluate the rules. */
-  tick(nowMs: number): CoreEvent[] {
+  tick(nowMs: number, opts: TickOptions = {}): CoreEvent[] {
     this.nowMs = nowMs;
     const out: CoreEvent[] = [];
     let fullTrust = false;
@@ -153,7 +161,7 @@ export class Engine {
       out.push(e);
     }
 
-    for (const e of this.board.evaluate(nowMs, (a) => this.ruleInput(a, nowMs))) out.push(e);
+    if (opts.rules !== false) for (const e of this.board.evaluate(nowMs, (a) => this.ruleInput(a, nowMs))) out.push(e);
     return out;
   }
 

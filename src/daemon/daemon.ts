@@ -15,11 +15,23 @@ import { DataClock, Engine } from "../core/engine.js";
 import type { AdvisoryTransition, Command, CoreEvent, Sample } from "../core/types.js";
 import { ADVISORY_ONLY } from "../core/types.js";
 import { Historian } from "../store/historian.js";
+import { historianInput } from "../replay/input.js";
 import { MqttSource, type Source } from "../sources/mqtt.js";
 import { ChangeFeed } from "./change-feed.js";
 import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
 import { startServer } from "../server/listen.js";
 import type { Logger } from "./log.js";
+
+/** The history a warm start needs: the longest window the config uses, at least an hour. */
+export function warmStartSpanS(cfg: MillwardenConfig): number {
+  const windows = [
+    3600,
+    ...cfg.coPoints.flatMap((c) => [c.longWindowS, c.baseline?.windowS ?? 0]),
+    ...cfg.dewPoints.map((d) => d.trendWindowS),
+    ...cfg.analysers.map((a) => a.frozenWindowS),
+  ];
+  return Math.max(...windows);
+}
 
 /** How often the historian seals, prunes and reclaims space. */
 const MAINTAIN_EVERY_MS = 60_000;
@@ -92,6 +104,7 @@ export class Daemon {
   private async begin(): Promise<void> {
     const { config: cfg, log } = this.opts;
     this.sources = await this.makeSources();
+    this.warmStart();
     this.restoreAdvisories();
     this.historian.start();
     this.feed.start();
@@ -109,6 +122,37 @@ export class Daemon {
       log.info(`dashboard at ${srv.url}`);
     }
     log.info(`monitoring ${cfg.site.name}, ${cfg.site.plant}: ${cfg.signals.length} signals, ${cfg.rules.length} rules, clock ${cfg.clock}. ${ADVISORY_ONLY}`);
+  }
+
+  /**
+   * Refill the core's rolling windows and baselines from recent history, so that after a
+   * restart a CO gradient does not start blind. The samples go through the core exactly as in
+   * a replay, with rules off (nothing is raised from the past; the advisory states come back
+   * from the historian next) and nothing re-stored.
+   */
+  private warmStart(): void {
+    const cfg = this.opts.config;
+    const lastMs = this.historian.lastSampleTimeMs();
+    if (lastMs === null) return;
+    const spanS = Math.min(cfg.storage.warmStartMaxS, warmStartSpanS(cfg));
+    if (spanS <= 0) return;
+    const input = historianInput(this.historian, { fromMs: lastMs - spanS * 1000, toMs: lastMs, signals: cfg.signals, maxBadLines: 0 });
+    const clock = new DataClock();
+    let n = 0;
+    try {
+      input.forEach((s) => {
+        for (const t of clock.due(s.sourceTimeMs)) this.engine.tick(t, { rules: false });
+        this.engine.ingest(s);
+        n++;
+      });
+      this.engine.tick(Math.floor(lastMs / 1000) * 1000, { rules: false });
+    } finally {
+      input.close();
+    }
+    this.lastTickMs = Math.floor(lastMs / 1000) * 1000;
+    // On the data clock the next sample continues from here; live, the wall clock takes over.
+    if (this.dataClock) this.dataClock.due(lastMs);
+    this.opts.log.info(`warm start: ${n} stored samples of the last ${Math.round(spanS / 60)} min up to ${new Date(lastMs).toISOString()} refilled the windows and baselines`);
   }
 
   /**

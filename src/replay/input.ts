@@ -95,6 +95,11 @@ export function openReplayInput(path: string, opts: InputOptions): ReplayInput {
   return detectInputKind(path) === "sqlite" ? new SqliteInput(path, opts) : new CsvInput(path, opts);
 }
 
+/** The samples of a historian that is already open (the daemon's warm start); close() leaves it open. */
+export function historianInput(h: Historian, opts: InputOptions): ReplayInput {
+  return new SqliteInput(h, opts);
+}
+
 // ---- CSV ----
 
 const BLOCK_BYTES = 1 << 20;
@@ -206,6 +211,8 @@ class SqliteInput implements ReplayInput {
   readonly kind = "sqlite" as const;
   readonly stats: InputStats;
   private readonly h: Historian;
+  /** Opened here (closed by close()), or lent by the caller. */
+  private readonly owned: boolean;
   /** Configured signals with history, sorted as the export sorts them (equal times in this order). */
   private readonly signals: string[];
   private readonly windowMs: number;
@@ -214,13 +221,15 @@ class SqliteInput implements ReplayInput {
   private dataTimeMs: number | null = null;
 
   constructor(
-    path: string,
+    source: string | Historian,
     private readonly opts: InputOptions,
   ) {
     if (opts.windowMs !== undefined && !(Number.isSafeInteger(opts.windowMs) && opts.windowMs >= 1)) {
       throw new RangeError(`replay input: windowMs: expected a whole number of milliseconds ≥ 1, found ${String(opts.windowMs)}`);
     }
-    this.h = Historian.open({ path });
+    this.owned = typeof source === "string";
+    this.h = typeof source === "string" ? Historian.open({ path: source }) : source;
+    const path = typeof source === "string" ? source : this.h.path;
     const known = new Set(this.h.knownSignals());
     const configured = new Set(opts.signals.map((s) => s.id));
     this.signals = [...configured].filter((id) => known.has(id)).sort();
@@ -330,7 +339,7 @@ class SqliteInput implements ReplayInput {
   }
 
   close(): void {
-    this.h.close();
+    if (this.owned) this.h.close();
   }
 }
 

@@ -269,7 +269,8 @@ type Opts = ReturnType<typeof validateOptions>;
 
 export class Historian {
   private readonly db: Db;
-  private readonly path: string;
+  /** The file, resolved (":memory:" for an in-memory historian). */
+  readonly path: string;
   private readonly o: Opts;
   private readonly now: () => number;
   private readonly tables: Tables;
@@ -745,6 +746,17 @@ export class Historian {
   }
 
   /** Signal ids with at least one flushed sample, sorted. */
+  /** Source time of the newest stored sample of any signal, or null when there is none. */
+  lastSampleTimeMs(): number | null {
+    this.assertOpen("lastSampleTimeMs");
+    const fromChunks = this.db.prepare("SELECT max(c.t_last_ms) FROM chunks c JOIN series s ON s.id = c.series_id WHERE s.kind = 'signal'").pluck().get() as number | null;
+    let last = fromChunks;
+    // Unsealed rows: committed ones are mirrored in memory (RecentIndex), queued ones not yet written.
+    const fromRecent = this.db.prepare("SELECT max(r.t_ms) FROM recent r JOIN series s ON s.id = r.series_id WHERE s.kind = 'signal'").pluck().get() as number | null;
+    if (fromRecent !== null && (last === null || fromRecent > last)) last = fromRecent;
+    return last;
+  }
+
   knownSignals(): string[] {
     this.assertOpen("knownSignals");
     return this.st.seriesNames.all("signal") as string[];

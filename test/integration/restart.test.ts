@@ -89,3 +89,45 @@ describe("restart", () => {
     }
   });
 });
+
+describe("warm start", () => {
+  it("after a restart the CO gradients and baselines carry on from history, as if there had been no restart", async () => {
+    const { cfg, samples } = setup();
+    const t0 = samples[0]!.sourceTimeMs;
+    const cutMs = t0 + 30 * 60_000;
+    const endMs = t0 + 40 * 60_000;
+    const keys = ["co.bf2-outlet.gradientPpmPerMin", "co.bf2-outlet.baselinePpm", "co.vm2-outlet.gradientLongPpmPerMin", "dewpoint.bf2-outlet.marginTrendKPerMin"];
+    const valuesAt = (d: Daemon, tMs: number) => {
+      d.historian.flush();
+      return keys.map((k) => d.historian.derived(k, tMs, tMs)[0]?.value ?? null);
+    };
+
+    const dirA = tempDir("mw-warm-");
+    const dirB = tempDir("mw-warm-");
+    try {
+      const straight = await daemonOn(cfg, dirA.path);
+      feed(straight, samples.filter((s) => s.sourceTimeMs <= endMs));
+      const want = valuesAt(straight, endMs - 1000);
+      await straight.stop();
+
+      const first = await daemonOn(cfg, dirB.path);
+      feed(first, samples.filter((s) => s.sourceTimeMs <= cutMs));
+      await first.stop();
+      const second = await daemonOn(cfg, dirB.path);
+      try {
+        // Right after the restart, before any new sample, the gradient is known (not blind).
+        const snap = second.engine.snapshot();
+        expect(snap.coPoints.find((p) => p.id === "bf2-outlet")!.gradientPpmPerMin).not.toBeNull();
+        feed(second, samples.filter((s) => s.sourceTimeMs > cutMs && s.sourceTimeMs <= endMs));
+        expect(want.every((v) => v !== null)).toBe(true);
+        expect(valuesAt(second, endMs - 1000)).toEqual(want);
+      } finally {
+        await second.stop();
+      }
+    } finally {
+      dirA.remove();
+      dirB.remove();
+    }
+  });
+});
+
