@@ -16,6 +16,8 @@ import type { AdvisoryTransition, Command, CoreEvent, Sample } from "../core/typ
 import { ADVISORY_ONLY } from "../core/types.js";
 import { Historian } from "../store/historian.js";
 import { historianInput } from "../replay/input.js";
+import { daemonMetrics } from "./metrics.js";
+import type { Registry } from "prom-client";
 import { MqttSource, type Source } from "../sources/mqtt.js";
 import { ChangeFeed } from "./change-feed.js";
 import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
@@ -53,6 +55,7 @@ export class Daemon {
   readonly engine: Engine;
   readonly historian: Historian;
   readonly feed: ChangeFeed;
+  private readonly metrics: Registry;
   sources: Source[] = [];
   url: string | null = null;
   private server: { close(): Promise<void> } | null = null;
@@ -80,6 +83,16 @@ export class Daemon {
       ...(st.maxDatabaseBytes !== undefined ? { maxDatabaseBytes: st.maxDatabaseBytes } : {}),
     });
     this.feed = new ChangeFeed(() => this.engine.snapshot());
+    const positions = [...new Set(cfg.rules.map((r) => r.position))].sort();
+    this.metrics = daemonMetrics({
+      sources: () => this.sources.map((s) => s.stats()),
+      rejectedByCore: () => this.rejectedByCore,
+      ...(cfg.clock === "data" ? {} : { coreLagS: () => (this.now() - this.lastTickMs) / 1000 }),
+      historian: () => this.historian.stats(),
+      advisories: () => this.engine.currentAdvisories(),
+      positions: () => positions,
+      inFlood: (p) => this.engine.inFlood(p),
+    });
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
   }
 
@@ -277,6 +290,7 @@ export class Daemon {
       },
       subscribe: (l) => this.feed.subscribe(l),
       dashboardDir: DASHBOARD_DIR,
+      metrics: async () => ({ contentType: this.metrics.contentType, body: await this.metrics.metrics() }),
     };
   }
 

@@ -158,6 +158,14 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     return reply.code(health.status === "ok" ? 200 : 503).send(health);
   });
 
+  // Prometheus text format for the site's monitoring; read-only, no login (like /api/health).
+  app.get("/metrics", async (request, reply) => {
+    rejectUnknown(request.query as Query, []);
+    if (!deps.metrics) return sendError(reply, 404, "NOT_FOUND", "no metrics in this build: expected GET /metrics from the daemon");
+    const m = await deps.metrics();
+    return reply.code(200).header("content-type", m.contentType).send(m.body);
+  });
+
   app.get("/api/state", async (request) => {
     rejectUnknown(request.query as Query, []);
     return deps.getState();

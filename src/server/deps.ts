@@ -53,6 +53,8 @@ export interface AppDeps {
   subscribe(listener: (msg: LiveMessage) => void): () => void;
   /** Folder with the browser side (index.html and its assets). */
   dashboardDir: string;
+  /** GET /metrics: the Prometheus text exposition format and its content type (absent: 404). */
+  metrics?(): Promise<{ contentType: string; body: string }>;
 }
 
 export class UnknownSeriesError extends Error {
