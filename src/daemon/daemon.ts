@@ -82,6 +82,7 @@ export class Daemon {
       sealIntervalS: st.sealIntervalS,
       ...(st.maxDatabaseBytes !== undefined ? { maxDatabaseBytes: st.maxDatabaseBytes } : {}),
     });
+    if (this.historian.migrationBackup) opts.log.info(`historian migrated to a newer schema; the file as it was is kept in ${this.historian.migrationBackup}`);
     this.feed = new ChangeFeed(() => this.engine.snapshot());
     const positions = [...new Set(cfg.rules.map((r) => r.position))].sort();
     this.metrics = daemonMetrics({

@@ -271,6 +271,8 @@ export class Historian {
   private readonly db: Db;
   /** The file, resolved (":memory:" for an in-memory historian). */
   readonly path: string;
+  /** The copy taken before this open migrated the file to a newer schema, or null. */
+  migrationBackup: string | null = null;
   private readonly o: Opts;
   private readonly now: () => number;
   private readonly tables: Tables;
@@ -373,8 +375,10 @@ export class Historian {
       db.pragma(`journal_size_limit = ${64 * 1024 * 1024}`);
       if (o.maxPageCount !== undefined) db.pragma(`max_page_count = ${o.maxPageCount}`);
       if (o.cacheSizeKiB !== undefined) db.pragma(`cache_size = -${o.cacheSizeKiB}`);
-      migrate(db, version, o.nowMs);
-      return new Historian(db, shownPath, o);
+      const backup = migrate(db, version, o.nowMs, shownPath);
+      const h = new Historian(db, shownPath, o);
+      h.migrationBackup = backup;
+      return h;
     } catch (err) {
       db?.close();
       if (err instanceof HistorianOpenError) throw err;
@@ -1127,7 +1131,19 @@ function identify(db: Db, path: string): number {
   return version;
 }
 
-function migrate(db: Db, fromVersion: number, nowMs: () => number): void {
+/**
+ * Apply the migrations after `fromVersion`. A file that holds data (version ≥ 1) is first copied
+ * whole with VACUUM INTO (sqlite.org/lang_vacuum.html#vacuuminto: a consistent, compacted copy
+ * made from inside the open connection) to "<file>.v<from>-backup-<time>.db" beside it, so an
+ * upgrade that goes wrong can be undone by putting the copy back.
+ */
+function migrate(db: Db, fromVersion: number, nowMs: () => number, path: string): string | null {
+  let backup: string | null = null;
+  if (fromVersion >= 1 && fromVersion < LATEST_SCHEMA_VERSION && path !== ":memory:") {
+    const stamp = new Date(nowMs()).toISOString().replace(/[-:]/g, "").replace(/\.\d+Z$/, "Z");
+    backup = `${path}.v${fromVersion}-backup-${stamp}.db`;
+    db.prepare("VACUUM INTO ?").run(backup);
+  }
   for (const m of MIGRATIONS) {
     if (m.version <= fromVersion) continue;
     db.transaction(() => {
@@ -1143,6 +1159,7 @@ function migrate(db: Db, fromVersion: number, nowMs: () => number): void {
       db.pragma(`user_version = ${m.version}`);
     }).immediate();
   }
+  return backup;
 }
 
 // ---- validation ----
