@@ -4,7 +4,8 @@
 //   chatter   one advisory annunciated chatterCount times within chatterWindowS: one "chatter"
 //             event (the notifier sends that once instead of every raise) and the mark
 //             "chattering"; it ends after five windows without an annunciation (our choice).
-//   flood     more than floodCount annunciations at one operator position within floodWindowS:
+//   flood     more than floodCount annunciations at one operator position within floodWindowS
+//             (raises of an advisory already marked chattering not counted):
 //             one "flood-start" naming the first-out advisory (the earliest in the window);
 //             "flood-end" once fewer than floodEndCount remain in the window.
 //   standing  the condition present longer than standingS: one "standing" event per activation.
@@ -65,6 +66,10 @@ export class NuisanceControl {
       });
     }
 
+    // Once an advisory is marked chattering, chatter control speaks for it: its further raises
+    // do not count toward a flood (one flickering reading must not flood a position by itself).
+    // The raise that made it chattering still counts.
+    if (a.chattering && out.length === 0) return out;
     const f = this.flood(a.position);
     f.recent.push({ atMs: t.atMs, advisoryId: a.id });
     this.trim(f, t.atMs);

@@ -71,7 +71,11 @@ export function renderSummary(s: ReplaySummary): string {
   );
 
   if (s.positions.length > 0) {
-    out.push("", `Flood: 10-minute periods with more than ${b.floodRaisesPer10Min} raises (counted here), and the floods the core reported`);
+    out.push(
+      "",
+      `Flood: 10-minute periods with more than ${b.floodRaisesPer10Min} raises (counted here), and the floods the core reported`,
+      "(the core leaves out the raises of an advisory already marked chattering: such periods show as over, outside a flood)",
+    );
     out.push(
       table(
         ["position", "periods", `over ${b.floodRaisesPer10Min}`, "share", "floods (core)", "time in flood", "share", "periods in a flood", "over, outside a flood"],

@@ -176,6 +176,27 @@ export interface PlantCommands {
   trip: boolean;
   /** Operators' manual N2 flow, Nm³/h, overriding the inerting controller; null: controller in charge. */
   n2ManualNm3PerH: number | null;
+  /**
+   * Scenario: CO released by heating coal inside the circuit (a smouldering nest on the table,
+   * a bed glowing in the air drawn through it), Nm³/h of CO. It mixes into the loop gas like the
+   * coal's own oxidation CO, so both CO analysers see it. The O2 it consumes (half a volume per
+   * volume of CO) is left out: a few Nm³/h against a loop of 1,000 Nm³.
+   */
+  millCoExtraNm3PerH: number;
+  /**
+   * Scenario: the bag filter O2/CO analyser (BF2-AT-213/214) reports function check on its
+   * status output (BF2-AS-213): calibration, blowback. NAMUR NE 107 category C.
+   */
+  bf2AnalyserInCheck: boolean;
+  /** Scenario: check gas at the bag filter analyser's cell instead of the sample gas; null: sample gas. */
+  bf2AnalyserCheckGas: CheckGas | null;
+}
+
+/** A check gas (test gas) as an extractive analyser with a cooler sees it: dry basis. */
+export interface CheckGas {
+  name: string;
+  o2PctDry: number;
+  coPpm: number;
 }
 
 export const STANDSTILL_COMMANDS: PlantCommands = {
@@ -192,6 +213,9 @@ export const STANDSTILL_COMMANDS: PlantCommands = {
   damperAirNm3PerH: 0,
   trip: false,
   n2ManualNm3PerH: null,
+  millCoExtraNm3PerH: 0,
+  bf2AnalyserInCheck: false,
+  bf2AnalyserCheckGas: null,
 };
 
 export const GRINDING_COMMANDS: PlantCommands = {
@@ -208,6 +232,9 @@ export const GRINDING_COMMANDS: PlantCommands = {
   damperAirNm3PerH: 0,
   trip: false,
   n2ManualNm3PerH: null,
+  millCoExtraNm3PerH: 0,
+  bf2AnalyserInCheck: false,
+  bf2AnalyserCheckGas: null,
 };
 
 /** Per tag: description, unit, sensor lag, noise (1 sigma), display decimals, lower clamp. */
@@ -241,6 +268,15 @@ export const TAG_SPECS: readonly TagSpec[] = [
   { tag: "FS2-AT-313", description: "fine-coal silo O2 (dry)", unit: "% vol", sensorTauS: 60, noiseSigma: 0.04, decimals: 2, min: 0, max: 25 },
   { tag: "FS2-AT-314", description: "fine-coal silo CO", unit: "ppm", sensorTauS: 60, noiseSigma: 0.4, decimals: 1, min: 0, max: null },
   { tag: "IG2-FT-051", description: "inert gas (N2) flow into the loop", unit: "Nm³/h", sensorTauS: 5, noiseSigma: 15, decimals: 0, min: 0, max: null },
+];
+
+/**
+ * Discrete status outputs (0 or 1), published after the measured tags in every frame. They
+ * carry no noise and draw no deviate, so the measured tags' noise is the same with or without them.
+ */
+export const STATUS_TAGS: readonly { tag: string; description: string; unit: string }[] = [
+  { tag: "VM2-UZ-130", description: "mill trip from the protection system (1 = tripped)", unit: "state" },
+  { tag: "BF2-AS-213", description: "bag filter O2/CO analyser status (1 = function check: calibration, blowback)", unit: "state" },
 ];
 
 /** True process values (before sensor lag and noise), one per tag, in TAG_SPECS order. */
@@ -288,6 +324,10 @@ export class PlantModel {
   filterExtraK = 0;
   damperAirNm3PerH = 0;
   rawCoalMoisture = RAW_COAL_MOISTURE;
+  millCoExtraNm3PerH = 0;
+  tripped = false;
+  bf2AnalyserInCheck = false;
+  bf2AnalyserCheckGas: CheckGas | null = null;
   /** Sensor readings (lagged true values), keyed by tag. */
   readonly sensors = new Map<string, number>();
 
@@ -409,6 +449,7 @@ export class PlantModel {
     this.n2Nm3PerH = lag(this.n2Nm3PerH, n2Target, dtS, N2_TAU_S);
 
     // Loop composition: well-mixed volume, exact update for constant inflows.
+    this.millCoExtraNm3PerH = Math.max(0, cmd.millCoExtraNm3PerH);
     this.coalOxidationCoNm3PerH = lag(this.coalOxidationCoNm3PerH, COAL_OXIDATION_CO_NM3_PER_T * this.feedTPerH, dtS, COAL_OXIDATION_TAU_S);
     const f = this.freshFlows();
     // Air from the stuck damper mixes like false air; a manual purge with the fans stopped
@@ -420,10 +461,13 @@ export class PlantModel {
       const tauS = (LOOP_VOLUME_NM3 * 3600) / totalNm3PerH;
       const o2Eq = (f.flue * FLUE_O2_FRAC + air * AIR_O2_FRAC_WET) / totalNm3PerH;
       const h2oEq = (f.flue * FLUE_H2O_FRAC + air * AMBIENT_H2O_FRAC + f.steam) / totalNm3PerH;
-      const coEq = (f.flue * FLUE_CO_PPM + air * FALSE_AIR_CO_PPM + this.coalOxidationCoNm3PerH * 1e6) / totalNm3PerH;
+      const coEq = (f.flue * FLUE_CO_PPM + air * FALSE_AIR_CO_PPM + (this.coalOxidationCoNm3PerH + this.millCoExtraNm3PerH) * 1e6) / totalNm3PerH;
       this.o2Frac = lag(this.o2Frac, o2Eq, dtS, tauS);
       this.h2oFrac = lag(this.h2oFrac, h2oEq, dtS, tauS);
       this.coPpmWet = lag(this.coPpmWet, coEq, dtS, tauS);
+    } else {
+      // Nothing flows in or out (fans stopped, no N2): the CO made inside accumulates.
+      this.coPpmWet += ((this.coalOxidationCoNm3PerH + this.millCoExtraNm3PerH) * 1e6 * dtS) / (LOOP_VOLUME_NM3 * 3600);
     }
 
     // Temperatures. Each steel node: gas out = (W·T_in − S + UA·T_steel)/(W + UA); the steel
@@ -455,6 +499,9 @@ export class PlantModel {
     this.filterSteelC = steelStep(this.filterSteelC, this.filterInletC, 0, wNow, FILTER_GAS_STEEL_KW_PER_K, FILTER_WALL_LOSS_KW_PER_K, FILTER_STEEL_KJ_PER_K, dtS);
     this.filterExtraK = cmd.filterExtraK;
     this.filterCoExtraPpm = cmd.filterCoExtraPpm;
+    this.tripped = cmd.trip;
+    this.bf2AnalyserInCheck = cmd.bf2AnalyserInCheck;
+    this.bf2AnalyserCheckGas = cmd.bf2AnalyserCheckGas;
     this.filterOutletC =
       (wNow * this.filterInletC + FILTER_GAS_STEEL_KW_PER_K * this.filterSteelC) / (wNow + FILTER_GAS_STEEL_KW_PER_K) + cmd.filterExtraK;
 
@@ -486,9 +533,13 @@ export class PlantModel {
     }
   }
 
-  /** True process values at the measuring points. CO analysers are extractive (dry basis). */
+  /**
+   * True process values at the measuring points. CO analysers are extractive (dry basis). The
+   * bag filter analyser's cell sees its check gas instead while one is applied.
+   */
   trueValues(): TrueValues {
     const dry = 1 - this.h2oFrac;
+    const check = this.bf2AnalyserCheckGas;
     return {
       "HG2-TT-011": this.hggOutletC,
       "VM2-TT-101": this.millInletC,
@@ -501,8 +552,8 @@ export class PlantModel {
       "BF2-TT-201": this.filterInletC,
       "BF2-TT-211": this.filterOutletC,
       "BF2-PT-212": this.filterOutletMbar,
-      "BF2-AT-213": (100 * this.o2Frac) / dry,
-      "BF2-AT-214": (this.coPpmWet + FILTER_CO_OFFSET_PPM * Math.min(1, this.bedFrac)) / dry + this.filterCoExtraPpm,
+      "BF2-AT-213": check ? check.o2PctDry : (100 * this.o2Frac) / dry,
+      "BF2-AT-214": check ? check.coPpm : (this.coPpmWet + FILTER_CO_OFFSET_PPM * Math.min(1, this.bedFrac)) / dry + this.filterCoExtraPpm,
       "BF2-AT-215": 100 * this.h2oFrac,
       "FS2-TT-311": this.siloC,
       "FS2-AT-313": this.siloO2DryPct,
@@ -511,9 +562,9 @@ export class PlantModel {
     };
   }
 
-  /** Sensor readings with noise, rounded as the instruments report them. */
+  /** Sensor readings with noise, rounded as the instruments report them, then the status outputs. */
   measure(normal: () => number): { tag: string; value: number }[] {
-    return TAG_SPECS.map((spec) => {
+    const measured = TAG_SPECS.map((spec) => {
       // One deviate per tag and frame, always, so the noise sequence never shifts.
       const noise = normal() * spec.noiseSigma;
       const reading = this.sensors.get(spec.tag) ?? 0;
@@ -527,6 +578,8 @@ export class PlantModel {
       const scale = 10 ** spec.decimals;
       return { tag: spec.tag, value: Math.round(value * scale) / scale + 0 };
     });
+    const status: Record<string, boolean> = { "VM2-UZ-130": this.tripped, "BF2-AS-213": this.bf2AnalyserInCheck };
+    return [...measured, ...STATUS_TAGS.map((t) => ({ tag: t.tag, value: status[t.tag] ? 1 : 0 }))];
   }
 }
 

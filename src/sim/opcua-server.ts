@@ -7,6 +7,8 @@
 //         HG2-TT-011  AnalogItem (Double, read only) ns=1;s=HG2-TT-011
 //           EngineeringUnits (EUInformation, UNECE code), EURange
 //       VM2 mill, BF2 bag filter, FS2 fine-coal silo, IG2 inert gas …
+//       the status outputs (VM2-UZ-130 trip, BF2-AS-213 analyser function check) are
+//       AnalogItems too: 0 or 1, EURange 0–1, no engineering unit
 //
 // Namespace 1 is ours, "urn:tarnholm:cg2:sim". Every frame of the scenario sets every tag
 // with the frame's time as its SourceTimestamp. Pacing as in publish.ts: frame k (counted
@@ -123,6 +125,7 @@ function euRange(tag: string, unit: string): { low: number; high: number } {
     case "kW": return { low: 0, high: 3000 };
     case "t/h": return { low: 0, high: 50 };
     case "Nm³/h": return { low: 0, high: 20000 };
+    case "state": return { low: 0, high: 1 }; // discrete status outputs (trip, analyser function check)
     default: return { low: 0, high: 100 };
   }
 }

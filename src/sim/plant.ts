@@ -49,6 +49,42 @@
 //                    the bag filter outlet CO reading (BF2-AT-214) freezes at its value at
 //                    onset + 3 min and stays exactly constant while the real CO keeps rising;
 //                    the mill outlet analyser stays live. 40 min.
+//   analyser-calibration steady grinding; at 900 s the bag filter O2/CO analyser (BF2-AT-213/
+//                    214) starts its automatic calibration: its status output BF2-AS-213 goes
+//                    to 1 (function check), 10 s later the sequencer switches the cell from
+//                    sample gas to zero gas (N2: 0 % O2, 0 ppm CO) for 120 s, then CO span gas
+//                    (800 ppm CO in N2) for 120 s, then O2 span gas (instrument air, 20.9 % O2)
+//                    for 120 s (each long enough for about 93 % of the step with the
+//                    analyser's 40-45 s time constants), then back to sample gas; the status
+//                    stays at 1 for 210 s more while the sample line and cell flush (about 5
+//                    time constants), so the readings are back on the process before it
+//                    drops: about 10 min in function check. The process does not change. 40 min.
+//   trip-loaded-co-rise steady grinding; at 600 s the protection system trips the mill and
+//                    isolates the circuit: drive, feeder and fan stop, the burner goes out,
+//                    the inerting controller is interlocked off, the coal stays on the table,
+//                    in the classifier and the hoppers (trip output VM2-UZ-130 at 1). From
+//                    660 s the operators keep the loaded circuit inert with a 1,500 Nm³/h N2
+//                    blanket by hand. In the standing gas the CO builds up: first from the
+//                    oxidation of the freshly ground coal left inside (it fades with the
+//                    16-minute time constant of the model), then from a smouldering nest on
+//                    the table that starts 5 min after the trip and doubles its CO output
+//                    every 20 min (self-heating speeds up as it warms). 70 min.
+//   trip-flood       steady grinding; at 1200 s the protection system trips the mill: drive
+//                    and feeder stop, the burner goes out, the inerting controller is
+//                    interlocked off, the fan runs on and draws false air in (as in
+//                    purge-after-trip): O2 rises toward air. The hot coal on the table and the
+//                    hot fines in the filter hopper glow in that air: CO from the mill rises
+//                    toward 4 Nm³/h and 80 ppm more at the filter outlet (2-minute time
+//                    constant). At 1500 s the operators stop the fan and purge with 3,000
+//                    Nm³/h N2; starved of air the glow dies down (2-minute time constant) and
+//                    the O2 falls back. One event upsets O2, CO and the phase at once: many
+//                    advisories within minutes. 60 min.
+//   o2-chatter       steady grinding; at 600 s the shift raises the inerting controller's
+//                    O2 set point (to save N2) so that the bag filter O2 settles right at the
+//                    notice threshold of its margin (11.0 % dry, 2 %-pt below the 13 % dry
+//                    LOC-based limit of the demo config); the reading's noise carries it back
+//                    and forth across that threshold. At 1500 s they put the set point back to
+//                    9 % wet. 40 min.
 
 import { gaussian, mulberry32 } from "./prng.js";
 import {
@@ -58,15 +94,17 @@ import {
   PlantModel,
   RAW_COAL_MOISTURE,
   STANDSTILL_COMMANDS,
+  STATUS_TAGS,
   TAG_SPECS,
+  type CheckGas,
   type PlantCommands,
 } from "./model.js";
 
-export const SIM_TAGS: readonly { tag: string; description: string; unit: string }[] = TAG_SPECS.map((s) => ({
-  tag: s.tag,
-  description: s.description,
-  unit: s.unit,
-}));
+/** Every tag of a frame, in frame order: the measured tags, then the discrete status outputs. */
+export const SIM_TAGS: readonly { tag: string; description: string; unit: string }[] = [
+  ...TAG_SPECS.map((s) => ({ tag: s.tag, description: s.description, unit: s.unit })),
+  ...STATUS_TAGS,
+];
 
 export interface SimFrame {
   tMs: number;
@@ -166,6 +204,57 @@ export const PURGE_N2_NM3_PER_H = 3_000;
 export const FROZEN_CO_ONSET_S = SMOULDER_ONSET_S;
 export const FROZEN_CO_AT_S = FROZEN_CO_ONSET_S + 180;
 export const FROZEN_CO_TAG = "BF2-AT-214";
+
+/** Calibration of the bag filter O2/CO analyser (analyser-calibration). */
+export const CAL_STATUS_ON_S = 900;
+export const CAL_STATUS_OFF_S = 1480;
+/** The check gases in turn, each from its start (s) until the next one's or until CAL_SAMPLE_GAS_S. */
+export const CAL_GASES: readonly (CheckGas & { fromS: number })[] = [
+  { fromS: 910, name: "zero gas (N2)", o2PctDry: 0, coPpm: 0 },
+  { fromS: 1030, name: "CO span gas (800 ppm CO in N2)", o2PctDry: 0, coPpm: 800 },
+  { fromS: 1150, name: "O2 span gas (instrument air)", o2PctDry: 20.9, coPpm: 0 },
+];
+export const CAL_SAMPLE_GAS_S = 1270;
+
+export const LOADED_TRIP_AT_S = 600;
+/** The N2 blanket the operators put on the tripped, isolated circuit, and when. */
+export const LOADED_BLANKET_AT_S = LOADED_TRIP_AT_S + 60;
+export const LOADED_BLANKET_N2_NM3_PER_H = 1_500;
+/** The smouldering nest on the table: start, CO output at the start, doubling time. */
+export const NEST_START_S = LOADED_TRIP_AT_S + 300;
+export const NEST_CO_NM3_PER_H = 0.1;
+export const NEST_DOUBLING_S = 20 * 60;
+
+export const FLOOD_TRIP_AT_S = 1200;
+export const FLOOD_PURGE_START_S = FLOOD_TRIP_AT_S + 300;
+/** The glow in the air drawn through the tripped mill: CO from the bed, extra CO at the filter outlet. */
+export const GLOW_MILL_CO_NM3_PER_H = 4;
+export const GLOW_FILTER_CO_PPM = 80;
+const GLOW_RISE_TAU_S = 120;
+const GLOW_DECAY_TAU_S = 120;
+
+export const CHATTER_ONSET_S = 600;
+export const CHATTER_END_S = 1500;
+/** The bag filter O2 the raised set point settles at: the demo config's notice threshold of its margin. */
+export const CHATTER_FILTER_O2_PCT_DRY = 11.0;
+
+/**
+ * The raised O2 set point (wet, at the mill outlet) at which the bag filter O2 settles at
+ * CHATTER_FILTER_O2_PCT_DRY. O2_dry = O2_wet / (1 − x_H2O), but less N2 also leaves more H2O in
+ * the loop, so the set point is found by a few fixed-point steps on a noiseless copy of the
+ * plant, each run for an hour at the candidate set point.
+ */
+function chatterSetpointPctWet(): number {
+  const settledDryPct = (spPctWet: number) => {
+    const p = new PlantModel();
+    p.settleGrinding();
+    for (let i = 0; i < 360; i++) p.step(10, { ...GRINDING_COMMANDS, o2SpPctWet: spPctWet });
+    return (100 * p.o2Frac) / (1 - p.h2oFrac);
+  };
+  let sp = GRINDING_COMMANDS.o2SpPctWet;
+  for (let i = 0; i < 3; i++) sp *= CHATTER_FILTER_O2_PCT_DRY / settledDryPct(sp);
+  return sp;
+}
 
 /** The filter smoulder's commands (filter-smoulder and frozen-co-analyser). */
 function smoulderCommands(tS: number): PlantCommands {
@@ -296,6 +385,88 @@ const SCENARIOS: Record<string, ScenarioDef> = {
         held ??= v.value;
         v.value = held;
       };
+    },
+  },
+  "analyser-calibration": {
+    description:
+      `Steady grinding; from ${CAL_STATUS_ON_S} s the bag filter O2/CO analyser (BF2-AT-213/214) calibrates: status BF2-AS-213 at 1 ` +
+      `(function check), then ${CAL_GASES.map((g) => g.name).join(", ")} for 120 s each, sample gas again from ${CAL_SAMPLE_GAS_S} s, ` +
+      `status back to 0 at ${CAL_STATUS_OFF_S} s once the cell has flushed. The process does not change. 40 min.`,
+    durationS: 2400,
+    onsetS: CAL_STATUS_ON_S,
+    setup(plant) {
+      plant.settleGrinding();
+      return (tS) => {
+        const inCheck = tS >= CAL_STATUS_ON_S && tS < CAL_STATUS_OFF_S;
+        const gas = tS < CAL_SAMPLE_GAS_S ? CAL_GASES.filter((g) => tS >= g.fromS).at(-1) : undefined;
+        return {
+          ...GRINDING_COMMANDS,
+          bf2AnalyserInCheck: inCheck,
+          bf2AnalyserCheckGas: gas ? { name: gas.name, o2PctDry: gas.o2PctDry, coPpm: gas.coPpm } : null,
+        };
+      };
+    },
+  },
+  "trip-loaded-co-rise": {
+    description:
+      `Steady grinding; at ${LOADED_TRIP_AT_S} s the mill trips with its fan (drive, feeder and fan stop, burner out, inerting off, ` +
+      `coal left inside, trip output VM2-UZ-130 at 1); from ${LOADED_BLANKET_AT_S} s a ${LOADED_BLANKET_N2_NM3_PER_H} Nm³/h N2 blanket by hand. ` +
+      "CO builds up in the standing gas: the oxidation of the coal left inside, then a smouldering nest on the table from " +
+      `${NEST_START_S} s (${NEST_CO_NM3_PER_H} Nm³/h CO, doubling every ${NEST_DOUBLING_S / 60} min). 70 min.`,
+    durationS: 4200,
+    onsetS: LOADED_TRIP_AT_S,
+    setup(plant) {
+      plant.settleGrinding();
+      return (tS) => {
+        if (tS < LOADED_TRIP_AT_S) return { ...GRINDING_COMMANDS };
+        return {
+          ...STANDSTILL_COMMANDS,
+          trip: true,
+          n2ManualNm3PerH: tS >= LOADED_BLANKET_AT_S ? LOADED_BLANKET_N2_NM3_PER_H : null,
+          millCoExtraNm3PerH: tS >= NEST_START_S ? NEST_CO_NM3_PER_H * 2 ** ((tS - NEST_START_S) / NEST_DOUBLING_S) : 0,
+        };
+      };
+    },
+  },
+  "trip-flood": {
+    description:
+      `Steady grinding; at ${FLOOD_TRIP_AT_S} s the mill trips; the fan runs on and draws false air in (O2 toward air), the hot coal ` +
+      `on the table and the fines in the filter hopper glow in it (CO from the mill toward ${GLOW_MILL_CO_NM3_PER_H} Nm³/h, ` +
+      `${GLOW_FILTER_CO_PPM} ppm more at the filter outlet). From ${FLOOD_PURGE_START_S} s the fan is stopped and the circuit purged ` +
+      `with ${PURGE_N2_NM3_PER_H} Nm³/h N2; the glow dies down. Many advisories within minutes. 60 min.`,
+    durationS: 3600,
+    onsetS: FLOOD_TRIP_AT_S,
+    setup(plant) {
+      plant.settleGrinding();
+      const glowAtStop = 1 - Math.exp(-(FLOOD_PURGE_START_S - FLOOD_TRIP_AT_S) / GLOW_RISE_TAU_S);
+      return (tS) => {
+        if (tS < FLOOD_TRIP_AT_S) return { ...GRINDING_COMMANDS };
+        const purging = tS >= FLOOD_PURGE_START_S;
+        const glow = purging
+          ? glowAtStop * Math.exp(-(tS - FLOOD_PURGE_START_S) / GLOW_DECAY_TAU_S)
+          : 1 - Math.exp(-(tS - FLOOD_TRIP_AT_S) / GLOW_RISE_TAU_S);
+        return {
+          ...STANDSTILL_COMMANDS,
+          fansOn: !purging,
+          trip: true,
+          n2ManualNm3PerH: purging ? PURGE_N2_NM3_PER_H : null,
+          millCoExtraNm3PerH: GLOW_MILL_CO_NM3_PER_H * glow,
+          filterCoExtraPpm: GLOW_FILTER_CO_PPM * glow,
+        };
+      };
+    },
+  },
+  "o2-chatter": {
+    description:
+      `Steady grinding; at ${CHATTER_ONSET_S} s the O2 set point is raised so that the bag filter O2 settles at ` +
+      `${CHATTER_FILTER_O2_PCT_DRY} % dry, right at the notice threshold of its margin, and its noise carries it back and forth across it; ` +
+      `at ${CHATTER_END_S} s the set point goes back to ${GRINDING_COMMANDS.o2SpPctWet} % wet. 40 min.`,
+    durationS: 2400,
+    onsetS: CHATTER_ONSET_S,
+    setup(plant) {
+      plant.settleGrinding();
+      const spPctWet = chatterSetpointPctWet();
+      return (tS) => (tS >= CHATTER_ONSET_S && tS < CHATTER_END_S ? { ...GRINDING_COMMANDS, o2SpPctWet: spPctWet } : { ...GRINDING_COMMANDS });
     },
   },
 };

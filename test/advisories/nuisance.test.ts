@@ -123,3 +123,17 @@ describe("standing", () => {
     expect(b.views()[0]).toMatchObject({ standing: true });
   });
 });
+
+describe("chatter and flood", () => {
+  it("a chattering advisory's further raises do not flood its position by themselves", () => {
+    const { nuisance, values, run } = board(["o2-flicker", "co-a", "co-b"]);
+    // 30 raises of one advisory within 10 minutes (every 20 s): chatter at the third, never a flood.
+    for (let k = 0; k < 30; k++) {
+      values.set("o2-flicker", 6);
+      run(k * 20_000);
+      values.set("o2-flicker", 0);
+      run(k * 20_000 + 10_000);
+    }
+    expect(nuisance.map((n) => n.type)).toEqual(["chatter"]);
+  });
+});

@@ -149,12 +149,13 @@ describe("millwarden replay of a history CSV", () => {
 });
 
 describe("millwarden replay: floods and chatter as the core reports them", () => {
-  it("finds each 10-minute period over 10 raises inside a flood the core reported", async () => {
+  it("a chattering rule alone is chatter, not a flood: its periods over 10 raises show as outside a core flood", async () => {
     // co-level-bf2 without its on-delay, and the bag filter outlet CO switching between 40 and
     // 200 ppm every 10 s from 60 s to 600 s (high while floor(t / 10 s) is odd): a rise past the
     // caution threshold (150 ppm, deadband 10) at 70, 90, ..., 590 s, i.e. (590 − 70) / 20 + 1 = 27
-    // raises in the first 10 minutes, each cleared 10 s later. The core must call that a flood
-    // (more than 10 in 10 min) and the rule chattering (3 in 60 s).
+    // raises in the first 10 minutes, each cleared 10 s later. The core calls the rule chattering
+    // (3 in 60 s); from then on its raises are chatter control's, not a flood's (src/advisories/nuisance.ts),
+    // so the summary's own count of periods over 10 raises finds them outside any core flood.
     const text = readFileSync(DEMO, "utf8");
     const needle = "    tiers: { caution: 150, warning: 400 }\n    deadband: 10\n    onDelayS: 20";
     expect(text).toContain(needle);
@@ -176,9 +177,9 @@ describe("millwarden replay: floods and chatter as the core reports them", () =>
     expect(raises).toHaveLength(27);
     const p = doc.summary.positions.find((x: { position: string }) => x.position === "control-room");
     expect(p.flood.periodsOverLimit).toBeGreaterThanOrEqual(1);
-    expect(p.flood.floods).toBeGreaterThanOrEqual(1);
-    expect(p.flood.periodsOverLimitOutsideCoreFlood).toBe(0);
-    expect(events.some((e) => e.kind === "nuisance" && e.type === "flood-start" && e.position === "control-room")).toBe(true);
+    expect(p.flood.floods).toBe(0);
+    expect(p.flood.periodsOverLimitOutsideCoreFlood).toBe(p.flood.periodsOverLimit);
+    expect(events.some((e) => e.kind === "nuisance" && e.type === "flood-start")).toBe(false);
     expect(doc.summary.chattering.map((c: { advisoryId: string }) => c.advisoryId)).toContain("co-level-bf2");
     expect(p.verdict).toBe("over maximum manageable"); // 27 raises of co-level-bf2 alone in 40 min: over 40 per hour
   });

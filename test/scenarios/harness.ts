@@ -2,7 +2,9 @@
 //
 //   test/scenarios/<name>/scenario.json   { config, sim, seed, durationS }
 //                        /input.csv       the simulator's samples, history exchange format
-//                        /expected.jsonl  every advisory transition the core raises, one per line
+//                        /expected.jsonl  every advisory transition and nuisance event (chatter,
+//                                         flood, standing) the core emits, one per line, in the
+//                                         order the core emits them
 //
 // Samples are made the way the daemon gets them: each simulator frame becomes the JSON
 // message the simulator publishes (src/sim/publish.ts), decoded for every signal whose MQTT
@@ -15,7 +17,7 @@ import { join, resolve } from "node:path";
 import { loadConfig } from "../../src/config/load.js";
 import type { MillwardenConfig } from "../../src/config/schema.js";
 import { DataClock, Engine } from "../../src/core/engine.js";
-import type { AdvisoryTransition, CoreEvent, PlantState, Sample } from "../../src/core/types.js";
+import type { AdvisoryTransition, CoreEvent, NuisanceEvent, PlantState, Sample } from "../../src/core/types.js";
 import { makeDecoder, parseBody, type SignalDecoder } from "../../src/sources/decode.js";
 import { createScenario, scenarioNames } from "../../src/sim/plant.js";
 
@@ -108,9 +110,15 @@ export interface TickRecord {
   derived: Map<string, number | null>;
 }
 
+/** What expected.jsonl records: advisory transitions and nuisance events. */
+export type GoldenEvent = AdvisoryTransition | NuisanceEvent;
+
 export interface ScenarioRun {
   engine: Engine;
+  /** Advisory transitions and nuisance events, in the order the core emitted them. */
+  events: GoldenEvent[];
   transitions: AdvisoryTransition[];
+  nuisance: NuisanceEvent[];
   ticks: TickRecord[];
 }
 
@@ -118,14 +126,21 @@ export interface ScenarioRun {
 export function runCore(cfg: MillwardenConfig, samples: readonly Sample[]): ScenarioRun {
   const engine = new Engine(cfg);
   const clock = new DataClock();
+  const events: GoldenEvent[] = [];
   const transitions: AdvisoryTransition[] = [];
+  const nuisance: NuisanceEvent[] = [];
   const ticks: TickRecord[] = [];
   const tick = (nowMs: number) => {
-    const events: CoreEvent[] = engine.tick(nowMs);
+    const out: CoreEvent[] = engine.tick(nowMs);
     const derived = new Map<string, number | null>();
-    for (const e of events) {
-      if (e.kind === "advisory") transitions.push(e);
-      else if (e.kind === "derived") derived.set(e.key, e.value);
+    for (const e of out) {
+      if (e.kind === "advisory") {
+        events.push(e);
+        transitions.push(e);
+      } else if (e.kind === "nuisance") {
+        events.push(e);
+        nuisance.push(e);
+      } else if (e.kind === "derived") derived.set(e.key, e.value);
     }
     ticks.push({ nowMs, state: engine.snapshot(), derived });
   };
@@ -135,5 +150,5 @@ export function runCore(cfg: MillwardenConfig, samples: readonly Sample[]): Scen
   }
   const last = samples.at(-1);
   if (last !== undefined) tick(Math.floor(last.sourceTimeMs / 1000) * 1000);
-  return { engine, transitions, ticks };
+  return { engine, events, transitions, nuisance, ticks };
 }

@@ -2,8 +2,9 @@
 //
 // Every folder test/scenarios/<name>/ with a scenario.json is run through the real config
 // loader and the real Engine on the data clock (see harness.ts): input.csv is read with
-// parseHistoryCsv, and every advisory transition the core raises must equal, one for one,
-// the lines of expected.jsonl.
+// parseHistoryCsv, and every advisory transition and nuisance event (chatter, flood,
+// standing) the core emits must equal, one for one and in the core's order, the lines of
+// expected.jsonl.
 //
 //   UPDATE_GOLDEN=1 npx vitest run test/scenarios    rewrites every expected.jsonl from the
 //                                                     present code instead of comparing
@@ -13,14 +14,37 @@
 // below (CHECKS), stating what a process engineer expects of the scenario, independent of
 // expected.jsonl; a folder without checks fails.
 import { existsSync, readFileSync, writeFileSync } from "node:fs";
-import { join } from "node:path";
+import { join, resolve } from "node:path";
 import { createRequire } from "node:module";
 import { describe, expect, it } from "vitest";
 import type { MillwardenConfig } from "../../src/config/schema.js";
+import { loadConfig } from "../../src/config/load.js";
 import type { AdvisoryTransition, PlantState, Sample } from "../../src/core/types.js";
 import { parseHistoryCsv } from "../../src/sources/csv.js";
-import { FROZEN_CO_AT_S, PURGE_START_S, SIM_TAGS, createScenario } from "../../src/sim/plant.js";
-import { SCENARIOS_DIR, SIM_START_MS, configOf, readScenarioSpec, runCore, scenarioFolders, type ScenarioRun, type ScenarioSpec, type TickRecord } from "./harness.js";
+import {
+  CAL_GASES,
+  CAL_SAMPLE_GAS_S,
+  CAL_STATUS_OFF_S,
+  CAL_STATUS_ON_S,
+  CHATTER_END_S,
+  FLOOD_PURGE_START_S,
+  FROZEN_CO_AT_S,
+  PURGE_START_S,
+  SIM_TAGS,
+  createScenario,
+} from "../../src/sim/plant.js";
+import {
+  SCENARIOS_DIR,
+  SIM_START_MS,
+  configOf,
+  readScenarioSpec,
+  runCore,
+  scenarioFolders,
+  type GoldenEvent,
+  type ScenarioRun,
+  type ScenarioSpec,
+  type TickRecord,
+} from "./harness.js";
 
 const UPDATE = process.env.UPDATE_GOLDEN === "1";
 
@@ -102,6 +126,37 @@ function runs<T>(xs: T[]): T[] {
 function raisesOf(ts: AdvisoryTransition[], advisoryId: string) {
   return ts.filter((t) => t.advisoryId === advisoryId && (t.transition === "raise" || t.transition === "escalate"));
 }
+
+/**
+ * Annunciations as ISA-18.2 counts them for chatter and flood (DESIGN.md §5): a transition into
+ * "unack" from any other state (a raise, the end of a suppression with the condition present),
+ * not a re-alert and not an escalation of an advisory already unacknowledged.
+ */
+function annunciations(ts: AdvisoryTransition[]): AdvisoryTransition[] {
+  return ts.filter((t) => t.to === "unack" && t.from !== "unack" && t.transition !== "re-alert");
+}
+
+function phaseOf(t: TickRecord, unitId: string): unknown {
+  return entry(t.state, "phases", unitId).phase;
+}
+
+/** Mean of a signal's values over the ticks in [fromMs, toMs]. */
+function meanSignal(run: ScenarioRun, id: string, fromMs: number, toMs: number): number {
+  const v = ticksBetween(run, fromMs, toMs).map((t) => signalValue(t, id)!);
+  if (v.length === 0) throw new Error(`no ticks between ${iso(fromMs)} and ${iso(toMs)}`);
+  return v.reduce((a, b) => a + b, 0) / v.length;
+}
+
+/** The shipped demo config, for comparing a scenario-local config with it. */
+const DEMO_CONFIG = resolve(SCENARIOS_DIR, "../../config/demo.yaml");
+
+/**
+ * The rules of the demo rule set built on the bag filter outlet O2/CO analyser bf2-a213
+ * (BF2-AT-213 O2, BF2-AT-214 CO), read off config/demo.yaml by hand: the filter's CO gradient,
+ * CO level, CO above baseline and CO rise across the filter, its O2 margin and time to the O2
+ * limit. (The analyser's own state rules watch its health, not its values.)
+ */
+const BF2_A213_RULES = ["co-baseline-bf2", "co-gradient-bf2", "co-level-bf2", "co-rise-bf2", "o2-margin-bf2", "o2-time-bf2"];
 
 interface Psychrolib {
   SI: number;
@@ -298,6 +353,163 @@ const CHECKS: Record<string, Record<string, Check>> = {
     },
   },
 
+  "analyser-calibration": {
+    "the analyser is in function check exactly while its status says so, and no advisory is raised at all": ({ run }) => {
+      const state = (t: TickRecord) => entry(t.state, "analysers", "bf2-a213").state;
+      const inCheck = run.ticks.filter((t) => state(t) === "function-check");
+      expect(inCheck.length, "ticks in function check").toBeGreaterThan(0);
+      // The status output is 1 from the frame after CAL_STATUS_ON_S to the frame of CAL_STATUS_OFF_S (plant.ts).
+      expect(inCheck[0]!.nowMs - (SIM_START_MS + CAL_STATUS_ON_S * 1000)).toBeLessThanOrEqual(3000);
+      expect(inCheck.at(-1)!.nowMs - (SIM_START_MS + CAL_STATUS_OFF_S * 1000)).toBeLessThanOrEqual(3000);
+      expect(runs(run.ticks.map(state))).toEqual(["ok", "function-check", "ok"]);
+      expect(annunciations(run.transitions).map((t) => `${t.advisoryId} ${t.transition} at ${iso(t.atMs)}`)).toEqual([]);
+      expect(run.nuisance).toEqual([]);
+    },
+    "every rule on bf2-a213's values is suppressed by design for the check and unsuppressed after it, and only those": ({ run }) => {
+      const byDesign = (kind: string) =>
+        run.transitions
+          .filter((t) => t.transition === kind && t.atMs > SIM_START_MS + CAL_STATUS_ON_S * 1000)
+          .map((t) => t.advisoryId)
+          .sort();
+      expect(byDesign("suppress")).toEqual(BF2_A213_RULES);
+      expect(byDesign("unsuppress")).toEqual(BF2_A213_RULES);
+      for (const t of run.transitions.filter((x) => x.transition === "suppress" && BF2_A213_RULES.includes(x.advisoryId))) {
+        expect(t.why, t.advisoryId).toMatch(/bf2-a213 in function check/);
+        expect(t.atMs - (SIM_START_MS + CAL_STATUS_ON_S * 1000)).toBeLessThanOrEqual(3000);
+      }
+      for (const t of run.transitions.filter((x) => x.transition === "unsuppress" && BF2_A213_RULES.includes(x.advisoryId))) {
+        expect(t.atMs - (SIM_START_MS + CAL_STATUS_OFF_S * 1000)).toBeLessThanOrEqual(3000);
+      }
+      // The 20-minute "function check too long" notice is not reached by a 10-minute calibration.
+      expect(CAL_STATUS_OFF_S - CAL_STATUS_ON_S).toBeLessThan(1200);
+      expect(run.transitions.filter((t) => t.advisoryId === "analyser-check-bf2-a213")).toEqual([]);
+    },
+    "the readings show the check gases meanwhile; the O2 margin and CO gradient at the filter are unknown, never a number": ({ run }) => {
+      // At the end of each 120 s step a first-order reading has covered 1 − e^(−120/45) = 93 % (O2) and
+      // 1 − e^(−120/40) = 95 % (CO) of the way to the check gas (the analysers' time constants, model.ts).
+      const endOf = (i: number) => SIM_START_MS + (i + 1 < CAL_GASES.length ? CAL_GASES[i + 1]!.fromS : CAL_SAMPLE_GAS_S) * 1000;
+      expect(meanSignal(run, "bf2.outlet.o2", endOf(0) - 10_000, endOf(0))).toBeLessThan(1.2);
+      expect(meanSignal(run, "bf2.outlet.co", endOf(1) - 10_000, endOf(1))).toBeGreaterThan(720);
+      expect(meanSignal(run, "bf2.outlet.o2", endOf(2) - 10_000, endOf(2))).toBeGreaterThan(18.5);
+      for (const t of ticksBetween(run, SIM_START_MS + (CAL_STATUS_ON_S + 3) * 1000, SIM_START_MS + CAL_STATUS_OFF_S * 1000)) {
+        expect(t.derived.get("o2.bf2.marginPctPt"), `o2.bf2.marginPctPt at ${iso(t.nowMs)}`).toBeNull();
+        expect(t.derived.get("co.bf2-outlet.gradientPpmPerMin"), `co gradient at ${iso(t.nowMs)}`).toBeNull();
+      }
+      // Back on the process within minutes: margin as computed here from the reading (13 % dry LOC-based limit).
+      const after = tickAt(run, SIM_START_MS + (CAL_STATUS_OFF_S + 120) * 1000);
+      const margin = after.derived.get("o2.bf2.marginPctPt");
+      expect(typeof margin).toBe("number");
+      expect(Math.abs((margin as number) - independentO2MarginPctPt(signalValue(after, "vm2.outlet.o2")!, signalValue(after, "bf2.outlet.h2o")!))).toBeLessThan(0.3);
+    },
+    "without the status signal (config/demo.yaml) the same check gases would raise O2 and CO advisories": ({ samples }) => {
+      const demo = loadConfig(DEMO_CONFIG);
+      const known = new Set(demo.signals.map((x) => x.id));
+      const blind = runCore(demo, samples.filter((x) => known.has(x.signal)));
+      const raised = annunciations(blind.transitions).filter((t) => t.atMs >= SIM_START_MS + CAL_STATUS_ON_S * 1000);
+      const ids = new Set(raised.map((t) => t.advisoryId));
+      // 20.9 % O2 (instrument air) is far above the 13 % dry limit; 800 ppm CO is far above 400 ppm.
+      expect(ids.has("o2-margin-bf2"), [...ids].join(", ")).toBe(true);
+      expect(ids.has("co-level-bf2"), [...ids].join(", ")).toBe(true);
+    },
+  },
+
+  "trip-loaded-co-rise": {
+    "the phase goes grinding → standstill-loaded at the trip and stays there; the latching notice is raised then and stays on": ({ run, onsetMs, endMs }) => {
+      expect(phaseOf(tickAt(run, onsetMs - 1 * MIN), "vm2")).toBe("grinding");
+      const loaded = run.ticks.find((t) => t.nowMs > onsetMs && phaseOf(t, "vm2") === "standstill-loaded");
+      expect(loaded, "standstill-loaded after the trip").toBeDefined();
+      expect(loaded!.nowMs - onsetMs).toBeLessThanOrEqual(2 * MIN);
+      expect(runs(ticksBetween(run, loaded!.nowMs, Infinity).map((t) => phaseOf(t, "vm2")))).toEqual(["standstill-loaded"]);
+      const ts = run.transitions.filter((t) => t.advisoryId === "mill-stopped-loaded-vm2");
+      expect(ts.map((t) => t.transition)).toEqual(["raise"]);
+      expect(ts[0]!.atMs - onsetMs).toBeLessThanOrEqual(2 * MIN);
+      const view = tickAt(run, endMs - 1000).state.advisories.find((a) => a.id === "mill-stopped-loaded-vm2");
+      expect(view?.latching).toBe(true);
+      expect(view?.conditionActive).toBe(true);
+    },
+    "CO rises at both analysers through the standstill, and CO advisories are raised during it, none before the trip": ({ run, onsetMs, endMs }) => {
+      for (const id of ["vm2.outlet.co", "bf2.outlet.co"]) {
+        const before = meanSignal(run, id, onsetMs - 5 * MIN, onsetMs);
+        const end = meanSignal(run, id, endMs - 2 * MIN, endMs);
+        expect(end - before, id).toBeGreaterThan(150);
+        // Still rising at the end (the nest), by least squares over the last 15 min.
+        const pts = ticksBetween(run, endMs - 15 * MIN, endMs).map((t) => ({ tMs: t.nowMs, v: signalValue(t, id)! }));
+        expect(olsSlopePerS(pts) * 60, `${id} ppm/min over the last 15 min`).toBeGreaterThan(1);
+      }
+      const co = annunciations(run.transitions).filter((t) => t.advisoryId.startsWith("co-"));
+      expect(co.filter((t) => t.atMs < onsetMs)).toEqual([]);
+      expect(new Set(co.map((t) => t.advisoryId))).toEqual(new Set(["co-gradient-vm2", "co-gradient-bf2", "co-baseline-vm2", "co-baseline-bf2", "co-level-bf2"]));
+      for (const t of co) expect(phaseOf(tickAt(run, t.atMs), "vm2"), `${t.advisoryId} at ${iso(t.atMs)}`).toBe("standstill-loaded");
+    },
+    "the isolated, blanketed circuit stays inert: no O2 advisory, and the O2 only falls": ({ run, onsetMs, endMs }) => {
+      expect(run.transitions.filter((t) => t.advisoryId.startsWith("o2-"))).toEqual([]);
+      expect(meanSignal(run, "vm2.outlet.o2", endMs - 2 * MIN, endMs)).toBeLessThan(meanSignal(run, "vm2.outlet.o2", onsetMs - 2 * MIN, onsetMs));
+    },
+  },
+
+  "trip-flood": {
+    "more than 10 annunciations within 10 min of the trip give one flood-start whose first-out is the trip's own notice": ({ run, onsetMs }) => {
+      const starts = run.nuisance.filter((n) => n.type === "flood-start");
+      expect(starts.length).toBe(1);
+      const start = starts[0]!;
+      expect(start.position).toBe("control-room");
+      expect(start.atMs - onsetMs).toBeLessThanOrEqual(10 * MIN);
+      // Counted here: annunciations within the 10 min ending at the flood-start (DESIGN.md §5: more than 10).
+      const inWindow = annunciations(run.transitions).filter((t) => t.atMs > start.atMs - 10 * MIN && t.atMs <= start.atMs);
+      expect(inWindow.length).toBeGreaterThan(10);
+      expect(start.count).toBe(inWindow.length);
+      expect(start.advisoryId).toBe(inWindow[0]!.advisoryId);
+      expect(start.advisoryId).toBe("mill-stopped-loaded-vm2");
+      // Many things at once: the phase, the O2 and the CO families all take part.
+      const families = new Set(inWindow.map((t) => t.advisoryId.split("-")[0]));
+      for (const f of ["mill", "o2", "co"]) expect(families.has(f), `family ${f} in ${[...families].join(", ")}`).toBe(true);
+      expect(annunciations(run.transitions).filter((t) => t.atMs < onsetMs)).toEqual([]);
+    },
+    "the flood ends once fewer than 5 annunciations are left within 10 min, after the purge has calmed the plant": ({ run }) => {
+      const ends = run.nuisance.filter((n) => n.type === "flood-end");
+      expect(ends.length).toBe(1);
+      const end = ends[0]!;
+      const start = run.nuisance.find((n) => n.type === "flood-start")!;
+      expect(end.atMs).toBeGreaterThan(start.atMs);
+      expect(end.atMs).toBeGreaterThan(SIM_START_MS + FLOOD_PURGE_START_S * 1000);
+      const countAt = (atMs: number) => annunciations(run.transitions).filter((t) => t.atMs > atMs - 10 * MIN && t.atMs <= atMs).length;
+      expect(countAt(end.atMs)).toBeLessThan(5);
+      expect(countAt(end.atMs - 1000)).toBeGreaterThanOrEqual(5);
+      expect(run.engine.inFlood("control-room")).toBe(false);
+    },
+  },
+
+  "o2-chatter": {
+    "the bag filter O2 sits at the notice threshold of its margin while the set point is raised": ({ run, onsetMs }) => {
+      // Margin as computed here: the 13 % dry LOC-based limit minus the dry reading (the wet site maximum does not govern at 14 % H2O).
+      const fromMs = onsetMs + 10 * MIN;
+      const toMs = SIM_START_MS + CHATTER_END_S * 1000;
+      const margins = ticksBetween(run, fromMs, toMs).map((t) => 13 - signalValue(t, "bf2.outlet.o2")!);
+      const mean = margins.reduce((a, b) => a + b, 0) / margins.length;
+      expect(Math.abs(mean - 2)).toBeLessThan(0.05);
+      // Noise carries it across the 2.0 %-pt threshold both ways, many times.
+      const crossings = margins.filter((m, i) => i > 0 && m < 2 !== margins[i - 1]! < 2).length;
+      expect(crossings).toBeGreaterThan(50);
+    },
+    "the untuned o2-margin-bf2 chatters: one chatter event at its third raise within 60 s, and it ends after 5 quiet minutes": ({ run }) => {
+      const raises = annunciations(run.transitions).filter((t) => t.advisoryId === "o2-margin-bf2");
+      const third = raises.find((t, i) => i >= 2 && t.atMs - raises[i - 2]!.atMs < 60_000);
+      expect(third, "three raises within 60 s").toBeDefined();
+      const chatter = run.nuisance.filter((n) => n.type === "chatter");
+      expect(chatter.map((n) => [n.advisoryId, n.atMs])).toEqual([["o2-margin-bf2", third!.atMs]]);
+      const end = run.nuisance.filter((n) => n.type === "chatter-end");
+      expect(end.map((n) => n.advisoryId)).toEqual(["o2-margin-bf2"]);
+      expect(end[0]!.atMs - raises.at(-1)!.atMs).toBeGreaterThanOrEqual(5 * MIN);
+      expect(end[0]!.atMs - raises.at(-1)!.atMs).toBeLessThan(5 * MIN + 2000);
+    },
+    "the mill's rule with the shipped deadband and on-delay sees the same gas and does not chatter": ({ run }) => {
+      const vm2 = annunciations(run.transitions).filter((t) => t.advisoryId === "o2-margin-vm2");
+      expect(vm2.length).toBeLessThanOrEqual(1);
+      expect(run.nuisance.filter((n) => n.advisoryId === "o2-margin-vm2")).toEqual([]);
+      expect(annunciations(run.transitions).filter((t) => t.advisoryId === "o2-margin-bf2").length).toBeGreaterThan(10 * vm2.length + 10);
+    },
+  },
+
   "frozen-co-analyser": {
     "the analyser of bf2.outlet.co reads frozen within frozenWindowS + 1 min of the freeze and stays unhealthy; the mill outlet analyser is never frozen": ({ cfg, run }) => {
       const { analyserId, windowS } = analyserOf(cfg, "bf2.outlet.co");
@@ -342,8 +554,17 @@ function analyserOf(cfg: MillwardenConfig, signalId: string): { analyserId: stri
 const folders = scenarioFolders();
 
 describe("golden scenario folders", () => {
-  it("are the four known scenarios, each with its own checks", () => {
-    expect(folders).toEqual(["frozen-co-analyser", "o2-creep-damper", "purge-after-trip", "wet-coal-surge"]);
+  it("are the eight known scenarios, each with its own checks", () => {
+    expect(folders).toEqual([
+      "analyser-calibration",
+      "frozen-co-analyser",
+      "o2-chatter",
+      "o2-creep-damper",
+      "purge-after-trip",
+      "trip-flood",
+      "trip-loaded-co-rise",
+      "wet-coal-surge",
+    ]);
     expect(Object.keys(CHECKS).sort()).toEqual(folders);
   });
 });
@@ -364,9 +585,9 @@ for (const folder of folders) {
       expect(samples.length).toBe(spec.durationS * fed.length);
     });
 
-    it("raises exactly the advisory transitions of expected.jsonl", { timeout: 120_000 }, () => {
+    it("emits exactly the advisory transitions and nuisance events of expected.jsonl, in order", { timeout: 120_000 }, () => {
       const { run } = load(folder);
-      const got = run.transitions.map((t) => JSON.parse(JSON.stringify(t)) as AdvisoryTransition);
+      const got = run.events.map((t) => JSON.parse(JSON.stringify(t)) as GoldenEvent);
       const file = join(SCENARIOS_DIR, folder, "expected.jsonl");
       if (UPDATE) {
         writeFileSync(file, got.map((t) => `${JSON.stringify(t)}\n`).join(""));
@@ -379,7 +600,7 @@ for (const folder of folders) {
         .filter(({ line }) => line.trim() !== "")
         .map(({ line, i }) => {
           try {
-            return JSON.parse(line) as AdvisoryTransition;
+            return JSON.parse(line) as GoldenEvent;
           } catch {
             throw new Error(`${file}:${i + 1}: expected one JSON object per line, found ${JSON.stringify(line.slice(0, 60))}`);
           }

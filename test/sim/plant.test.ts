@@ -57,14 +57,30 @@ describe("tags and scenario registry", () => {
       ["FS2-AT-313", "% vol"],
       ["FS2-AT-314", "ppm"],
       ["IG2-FT-051", "Nm³/h"],
+      // The discrete status outputs, after the measured tags.
+      ["VM2-UZ-130", "state"],
+      ["BF2-AS-213", "state"],
     ]);
     for (const t of SIM_TAGS) expect(t.description.length).toBeGreaterThan(5);
   });
 
-  it("knows the seven scenarios and rejects an unknown name with the list of known ones", () => {
-    expect(scenarioNames()).toEqual(["startup", "filter-smoulder", "demo", "wet-coal-surge", "o2-creep-damper", "purge-after-trip", "frozen-co-analyser"]);
+  it("knows the eleven scenarios and rejects an unknown name with the list of known ones", () => {
+    const names = [
+      "startup",
+      "filter-smoulder",
+      "demo",
+      "wet-coal-surge",
+      "o2-creep-damper",
+      "purge-after-trip",
+      "frozen-co-analyser",
+      "analyser-calibration",
+      "trip-loaded-co-rise",
+      "trip-flood",
+      "o2-chatter",
+    ];
+    expect(scenarioNames()).toEqual(names);
     expect(() => createScenario("shutdown", { startTimeMs: 0 })).toThrow(
-      /unknown simulator scenario "shutdown".*"startup", "filter-smoulder", "demo", "wet-coal-surge", "o2-creep-damper", "purge-after-trip", "frozen-co-analyser"/,
+      new RegExp(`unknown simulator scenario "shutdown".*${names.map((n) => `"${n}"`).join(", ")}`),
     );
     // A name inherited from Object.prototype is not a scenario either.
     expect(() => createScenario("toString", { startTimeMs: 0 })).toThrow(/unknown simulator scenario/);

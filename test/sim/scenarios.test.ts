@@ -1,9 +1,34 @@
-// The four fault scenarios of the simulated plant: wet coal, a stuck fresh-air damper, a
-// trip followed by an N2 purge, a frozen CO analyser. Each test names the key values at the
-// key times; physics is checked against sources outside the simulator where one exists.
+// The fault scenarios of the simulated plant: wet coal, a stuck fresh-air damper, a trip
+// followed by an N2 purge, a frozen CO analyser, an analyser calibration, a trip with CO rising
+// in the standing gas, a trip that upsets everything at once, an O2 set point at a threshold.
+// Each test names the key values at the key times; physics is checked against sources outside
+// the simulator where one exists.
 import { describe, expect, it } from "vitest";
-import { FROZEN_CO_AT_S, PURGE_N2_NM3_PER_H, PURGE_START_S, WET_COAL_MOISTURE, createScenario } from "../../src/sim/plant.js";
+import {
+  CAL_GASES,
+  CAL_SAMPLE_GAS_S,
+  CAL_STATUS_OFF_S,
+  CAL_STATUS_ON_S,
+  CHATTER_END_S,
+  CHATTER_FILTER_O2_PCT_DRY,
+  CHATTER_ONSET_S,
+  FLOOD_PURGE_START_S,
+  FLOOD_TRIP_AT_S,
+  FROZEN_CO_AT_S,
+  GLOW_FILTER_CO_PPM,
+  LOADED_BLANKET_AT_S,
+  LOADED_BLANKET_N2_NM3_PER_H,
+  LOADED_TRIP_AT_S,
+  NEST_START_S,
+  PURGE_N2_NM3_PER_H,
+  PURGE_START_S,
+  WET_COAL_MOISTURE,
+  createScenario,
+  scenarioNames,
+  type SimFrame,
+} from "../../src/sim/plant.js";
 import { GRINDING_COMMANDS, LOOP_VOLUME_NM3, PlantModel, evaporationTPerH, mixH2OFraction, FLUE_H2O_FRAC, AMBIENT_H2O_FRAC } from "../../src/sim/model.js";
+import { gaussian, mulberry32 } from "../../src/sim/prng.js";
 import { dewPointC, meanBetween, runScenario, series, valueOf, type Point } from "./frames.js";
 
 const START_MS = Date.UTC(2025, 2, 3, 6, 0, 0);
@@ -54,6 +79,201 @@ describe("registry entries of the fault scenarios", () => {
     expect(info("o2-creep-damper")).toEqual([2400, 600]);
     expect(info("purge-after-trip")).toEqual([3600, 600]);
     expect(info("frozen-co-analyser")).toEqual([2400, 600]);
+    expect(info("analyser-calibration")).toEqual([2400, 900]);
+    expect(info("trip-loaded-co-rise")).toEqual([4200, 600]);
+    expect(info("trip-flood")).toEqual([3600, 1200]);
+    expect(info("o2-chatter")).toEqual([2400, 600]);
+  });
+});
+
+/**
+ * Steady grinding without any scenario, frame for frame as createScenario makes them (settled
+ * plant, one deviate per measured tag and frame from the same seed): the reference a scenario
+ * that leaves the process alone must match.
+ */
+function steadyGrinding(frameCount: number, seed = 1): SimFrame[] {
+  const plant = new PlantModel();
+  plant.settleGrinding();
+  const normal = gaussian(mulberry32(seed));
+  const out: SimFrame[] = [];
+  for (let k = 0; k < frameCount; k++) {
+    if (k > 0) plant.step(1, GRINDING_COMMANDS);
+    out.push({ tMs: START_MS + k * 1000, values: plant.measure(normal) });
+  }
+  return out;
+}
+
+describe("status outputs", () => {
+  it("publish 0 or 1 only: the trip output from the frame after the trip, the analyser status only in analyser-calibration", () => {
+    for (const name of scenarioNames()) {
+      const f = frames(name);
+      for (const tag of ["VM2-UZ-130", "BF2-AS-213"]) {
+        const v = new Set(f.map((fr) => valueOf(fr, tag)));
+        for (const x of v) expect([0, 1], `${name} ${tag}`).toContain(x);
+      }
+      if (name !== "analyser-calibration") expect(new Set(f.map((fr) => valueOf(fr, "BF2-AS-213"))), name).toEqual(new Set([0]));
+    }
+    const tripAt: Record<string, number | null> = { "purge-after-trip": 600, "trip-loaded-co-rise": LOADED_TRIP_AT_S, "trip-flood": FLOOD_TRIP_AT_S };
+    for (const name of scenarioNames()) {
+      const at = tripAt[name] ?? null;
+      // Frame k shows the commands decided at frame k − 1.
+      const trip = series(frames(name), "VM2-UZ-130");
+      expect(trip.filter((p) => p.value === 1).map((p) => p.tS)[0] ?? null, name).toBe(at === null ? null : at + 1);
+      if (at !== null) expect(trip.filter((p) => p.tS > at && p.value !== 1), name).toEqual([]);
+    }
+  });
+});
+
+describe("analyser-calibration", () => {
+  const f = frames("analyser-calibration");
+  const ref = steadyGrinding(f.length);
+  const analyserTags = ["BF2-AT-213", "BF2-AT-214", "BF2-AS-213"];
+
+  it("leaves the process alone: every other tag equals steady grinding frame for frame", () => {
+    expect(f.length).toBe(2400);
+    const differing: string[] = [];
+    f.forEach((fr, i) => {
+      fr.values.forEach((v, j) => {
+        if (analyserTags.includes(v.tag)) return;
+        if (v.tag !== ref[i]!.values[j]!.tag || v.value !== ref[i]!.values[j]!.value) differing.push(`${v.tag}@${i}`);
+      });
+    });
+    expect(differing).toEqual([]);
+  });
+
+  it("sets the status to 1 for the whole sequence and the flush after it", () => {
+    const on = series(f, "BF2-AS-213").filter((p) => p.value === 1).map((p) => p.tS);
+    expect(on[0]).toBe(CAL_STATUS_ON_S + 1);
+    expect(on.at(-1)).toBe(CAL_STATUS_OFF_S);
+    expect(on.length).toBe(CAL_STATUS_OFF_S - CAL_STATUS_ON_S);
+    expect(CAL_GASES[0]!.fromS).toBeGreaterThan(CAL_STATUS_ON_S);
+  });
+
+  it("shows each check gas: the readings approach it as a first-order analyser does", () => {
+    // After t = 120 s of a step, 1 − e^(−t/τ) of the way (τ = 45 s O2, 40 s CO; first-order response).
+    const endOf = (i: number) => (i + 1 < CAL_GASES.length ? CAL_GASES[i + 1]!.fromS : CAL_SAMPLE_GAS_S);
+    const o2 = series(f, "BF2-AT-213");
+    const co = series(f, "BF2-AT-214");
+    const o2Before = meanBetween(o2, 0, CAL_STATUS_ON_S);
+    expect(meanBetween(o2, endOf(0) - 5, endOf(0))).toBeCloseTo(o2Before * Math.exp(-120 / 45), 0);
+    expect(meanBetween(co, endOf(1) - 5, endOf(1))).toBeGreaterThan(800 * (1 - Math.exp(-120 / 40)) - 5);
+    expect(meanBetween(co, endOf(1) - 5, endOf(1))).toBeLessThan(805);
+    expect(meanBetween(o2, endOf(2) - 5, endOf(2))).toBeGreaterThan(20.9 * (1 - Math.exp(-120 / 45)) - 0.2);
+    expect(Math.max(...o2.map((p) => p.value))).toBeLessThanOrEqual(20.9 + 0.2);
+  });
+
+  it("is back on the process when the status drops, and equal to steady grinding within noise later", () => {
+    const o2 = series(f, "BF2-AT-213");
+    const refO2 = series(ref, "BF2-AT-213");
+    const co = series(f, "BF2-AT-214");
+    const refCo = series(ref, "BF2-AT-214");
+    expect(Math.abs(meanBetween(o2, CAL_STATUS_OFF_S - 20, CAL_STATUS_OFF_S) - meanBetween(refO2, CAL_STATUS_OFF_S - 20, CAL_STATUS_OFF_S))).toBeLessThan(0.15);
+    expect(Math.abs(meanBetween(co, CAL_STATUS_OFF_S - 20, CAL_STATUS_OFF_S) - meanBetween(refCo, CAL_STATUS_OFF_S - 20, CAL_STATUS_OFF_S))).toBeLessThan(1);
+    for (let i = 0; i <= CAL_GASES[0]!.fromS; i++) expect(valueOf(f[i]!, "BF2-AT-213"), `frame ${i}`).toBe(valueOf(ref[i]!, "BF2-AT-213"));
+    for (let i = CAL_STATUS_OFF_S + 300; i < f.length; i++) {
+      expect(Math.abs(valueOf(f[i]!, "BF2-AT-213") - valueOf(ref[i]!, "BF2-AT-213")), `frame ${i}`).toBeLessThanOrEqual(0.011);
+      expect(Math.abs(valueOf(f[i]!, "BF2-AT-214") - valueOf(ref[i]!, "BF2-AT-214")), `frame ${i}`).toBeLessThanOrEqual(0.11);
+    }
+  });
+});
+
+describe("trip-loaded-co-rise", () => {
+  const f = frames("trip-loaded-co-rise");
+  const s = (tag: string) => series(f, tag);
+  const tripS = LOADED_TRIP_AT_S;
+
+  it("trips and isolates the circuit: drive, feed and fan stop, coal stays inside, N2 blanket by hand", () => {
+    expect(firstTimeS(s("VM2-JI-120"), (p) => p.tS >= tripS && p.value === 0) - tripS).toBeLessThanOrEqual(15);
+    for (const tag of ["VM2-JI-120", "VM2-WI-121"]) expect(s(tag).filter((p) => p.tS >= tripS + 60 && p.value !== 0)).toEqual([]);
+    // No suction once the fan has stopped: no false air.
+    expect(Math.abs(meanBetween(s("BF2-PT-212"), tripS + 120, 4200))).toBeLessThan(0.5);
+    expect(LOADED_BLANKET_AT_S).toBe(tripS + 60);
+    expect(Math.abs(meanBetween(s("IG2-FT-051"), LOADED_BLANKET_AT_S + 300, 4200) - LOADED_BLANKET_N2_NM3_PER_H)).toBeLessThan(30);
+  });
+
+  it("keeps the O2 low: it only falls under the N2 blanket", () => {
+    const o2 = smoothed(s("VM2-AT-113"));
+    expect(Math.max(...o2.filter((p) => p.tS >= tripS).map((p) => p.value))).toBeLessThan(9.2);
+    expect(meanBetween(s("VM2-AT-113"), 4080, 4200)).toBeLessThan(meanBetween(s("VM2-AT-113"), 0, tripS) - 3);
+  });
+
+  it("builds up CO in the standing gas at both analysers, still rising and faster at the end (the nest)", () => {
+    for (const tag of ["VM2-AT-114", "BF2-AT-214"]) {
+      const co = s(tag);
+      const before = meanBetween(co, 0, tripS);
+      expect(meanBetween(co, 4080, 4200) - before, tag).toBeGreaterThan(200);
+      // Least squares over two 10-min windows: the nest's doubling makes the late rise steeper.
+      const slope = (a: number, b: number) => fitLine(co.filter((p) => p.tS >= a && p.tS < b).map((p) => ({ x: p.tS / 60, y: p.value }))).slope;
+      expect(slope(3600, 4200), tag).toBeGreaterThan(slope(2400, 3000));
+      expect(slope(3600, 4200), tag).toBeGreaterThan(3);
+    }
+    // Nothing of the nest before it starts: the first minutes after the trip are the coal's own oxidation.
+    expect(NEST_START_S).toBe(tripS + 300);
+  });
+
+  it("CO in a closed vessel: the rise matches the CO made inside over the loop volume while almost nothing leaves", () => {
+    // Right after the blanket starts the vent flow is tiny: dC/dt ≈ G / V (well-mixed vessel).
+    // The coal's oxidation CO is 0.026 Nm³ per t of feed × 30 t/h at the trip (model.ts).
+    const gNm3PerH = 0.026 * 30 * Math.exp(-(LOADED_BLANKET_AT_S + 120 - tripS) / (16 * 60));
+    const expectedPpmPerMin = ((gNm3PerH / LOOP_VOLUME_NM3) * 1e6) / 60;
+    const co = s("VM2-AT-114").filter((p) => p.tS >= LOADED_BLANKET_AT_S + 60 && p.tS < LOADED_BLANKET_AT_S + 180);
+    const slope = fitLine(co.map((p) => ({ x: p.tS / 60, y: p.value }))).slope;
+    expect(slope).toBeGreaterThan(0.7 * expectedPpmPerMin);
+    expect(slope).toBeLessThan(1.3 * expectedPpmPerMin);
+  });
+});
+
+describe("trip-flood", () => {
+  const f = frames("trip-flood");
+  const s = (tag: string) => series(f, tag);
+  const tripS = FLOOD_TRIP_AT_S;
+
+  it("draws air in after the trip while the fan runs on: O2 toward air, above the limit by the purge start", () => {
+    expect(Math.abs(meanBetween(s("VM2-AT-113"), 0, tripS) - 9)).toBeLessThan(0.1);
+    expect(meanBetween(s("VM2-AT-113"), FLOOD_PURGE_START_S - 30, FLOOD_PURGE_START_S)).toBeGreaterThan(14.5);
+    expect(Math.max(...s("VM2-AT-113").map((p) => p.value))).toBeLessThan(20.9);
+  });
+
+  it("lets the glowing coal raise the CO at mill and filter within minutes, the filter's hot fines adding their own", () => {
+    const mill = s("VM2-AT-114");
+    const filter = s("BF2-AT-214");
+    expect(meanBetween(mill, FLOOD_PURGE_START_S - 30, FLOOD_PURGE_START_S) - meanBetween(mill, 0, tripS)).toBeGreaterThan(100);
+    // Across the filter: outlet minus inlet, about the hot fines' 80 ppm less the part not yet reached at 5 min (2-min time constant).
+    const across = meanBetween(filter, FLOOD_PURGE_START_S - 30, FLOOD_PURGE_START_S) - meanBetween(mill, FLOOD_PURGE_START_S - 30, FLOOD_PURGE_START_S);
+    expect(across).toBeGreaterThan(0.6 * GLOW_FILTER_CO_PPM);
+    expect(across).toBeLessThan(1.1 * GLOW_FILTER_CO_PPM);
+    expect(meanBetween(filter, 0, tripS)).toBeLessThan(40);
+  });
+
+  it("calms down after the purge: O2 back below the 12 % wet site maximum within 20 min, CO past its peak", () => {
+    const belowS = firstTimeS(smoothed(s("VM2-AT-113")), (p) => p.tS > FLOOD_PURGE_START_S && p.value < 12);
+    expect(belowS - FLOOD_PURGE_START_S).toBeLessThan(20 * 60);
+    const co = smoothed(s("VM2-AT-114"));
+    const peak = Math.max(...co.map((p) => p.value));
+    expect(meanBetween(s("VM2-AT-114"), 3540, 3600)).toBeLessThan(peak - 50);
+    expect(peak).toBeLessThan(2000); // within the analyser's range (config/demo.yaml)
+  });
+});
+
+describe("o2-chatter", () => {
+  const f = frames("o2-chatter");
+  const s = (tag: string) => series(f, tag);
+
+  it("settles the filter O2 at 11.0 % dry while the set point is raised, and back at about 10.5 % after", () => {
+    expect(CHATTER_FILTER_O2_PCT_DRY).toBe(11);
+    expect(Math.abs(meanBetween(s("BF2-AT-213"), CHATTER_ONSET_S + 600, CHATTER_END_S) - 11)).toBeLessThan(0.03);
+    expect(Math.abs(meanBetween(s("BF2-AT-213"), 0, CHATTER_ONSET_S) - 10.5)).toBeLessThan(0.1);
+    expect(Math.abs(meanBetween(s("BF2-AT-213"), 2100, 2400) - 10.5)).toBeLessThan(0.1);
+  });
+
+  it("holds the raised wet set point at the mill: O2_dry = O2_wet / (1 − x_H2O) (DESIGN.md §4)", () => {
+    const wet = meanBetween(s("VM2-AT-113"), CHATTER_ONSET_S + 600, CHATTER_END_S);
+    const h2o = meanBetween(s("BF2-AT-215"), CHATTER_ONSET_S + 600, CHATTER_END_S) / 100;
+    expect(wet).toBeGreaterThan(9.2);
+    expect(wet).toBeLessThan(9.6);
+    expect(Math.abs(wet / (1 - h2o) - meanBetween(s("BF2-AT-213"), CHATTER_ONSET_S + 600, CHATTER_END_S))).toBeLessThan(0.05);
+    // Less N2 for the higher O2.
+    expect(meanBetween(s("IG2-FT-051"), CHATTER_ONSET_S + 600, CHATTER_END_S)).toBeLessThan(meanBetween(s("IG2-FT-051"), 0, CHATTER_ONSET_S) - 500);
   });
 });
 
