@@ -31,7 +31,9 @@ function steady(t: number, over: Record<string, number> = {}): Sample[] {
     "bf2.outlet.co": 40, "bf2.outlet.h2o": 10, "fs2.temp": 45, "fs2.o2": 6, "fs2.co": 15, "ig2.flow": 300,
   };
   for (const k of Object.keys(base)) base[k]! += jitter(t, 0.05);
-  return Object.entries({ ...base, ...over }).map(([k, v]) => sample(k, v, t));
+  // Status contacts: off (no trip, the analyser not in function check), without jitter.
+  const status = { "vm2.trip": 0, "bf2.a213.status": 0 };
+  return Object.entries({ ...base, ...status, ...over }).map(([k, v]) => sample(k, v, t));
 }
 
 let engine: Engine;

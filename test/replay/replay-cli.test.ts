@@ -67,7 +67,7 @@ describe("millwarden replay of a history CSV", () => {
     expect(raise!.value).toBeGreaterThanOrEqual(5);
     expect(r1.out).toMatch(/ADVISORY ONLY/);
     expect(r1.out).toMatch(/^co-gradient-bf2 +\d+ /m); // among the most frequent rules
-    expect(r1.err).toMatch(/^replayed 43,200 samples in /m); // 18 signals × 2,400 s
+    expect(r1.err).toMatch(/^replayed 48,000 samples in /m); // 20 signals × 2,400 s
   });
 
   it("gives the events of the core run directly on the samples, as the daemon runs it on the data clock", async () => {
@@ -90,9 +90,9 @@ describe("millwarden replay of a history CSV", () => {
     expect(r.code, r.err).toBe(0);
     const doc = JSON.parse(r.out);
     expect(doc.advisoryOnly).toMatch(/ADVISORY ONLY/);
-    // 06:10:00Z .. 06:30:00Z inclusive: 1,201 s × 18 signals
-    expect(doc.replay.samples).toBe(1201 * 18);
-    expect(doc.input.outsideRange).toBe(43_200 - 1201 * 18);
+    // 06:10:00Z .. 06:30:00Z inclusive: 1,201 s × 20 signals
+    expect(doc.replay.samples).toBe(1201 * 20);
+    expect(doc.input.outsideRange).toBe(48_000 - 1201 * 20);
     expect(doc.summary.fromMs).toBe(ONSET_MS);
     expect(doc.summary.toMs).toBe(SIM_START_MS + 30 * 60_000);
     expect(doc.summary.position).toBe("control-room");
@@ -101,7 +101,7 @@ describe("millwarden replay of a history CSV", () => {
   });
 
   it("skips bad lines with file:line and what was expected, counts them, and stops when there are too many", async () => {
-    const lines = readFileSync(csv, "utf8").split("\n").slice(0, 18 * 600 + 1); // header + the first 10 min
+    const lines = readFileSync(csv, "utf8").split("\n").slice(0, 20 * 600 + 1); // header + the first 10 min
     lines.splice(5, 0, "2026-01-12 06:00:00,bf2.outlet.co,41,good"); // line 6: no T, no Z
     lines.splice(9, 0, "2026-01-12T06:00:00.000Z,bf2.outlet.co,41,fine"); // line 10: quality
     const bad = join(dir, "bad.csv");
@@ -111,7 +111,7 @@ describe("millwarden replay of a history CSV", () => {
     expect(r.err).toContain(`${bad}:6: time: expected an RFC 3339 UTC time such as 2026-01-12T06:00:00.000Z, found "2026-01-12 06:00:00"`);
     expect(r.err).toContain(`${bad}:10: quality: expected good, uncertain or bad (or nothing for good), found "fine"`);
     expect(r.err).toMatch(/^2 bad lines skipped/m);
-    expect(r.out).toMatch(/input: 10,800 samples read \(lines in the format\), 2 bad lines skipped/);
+    expect(r.out).toMatch(/input: 12,000 samples read \(lines in the format\), 2 bad lines skipped/); // 20 signals × 600 s
 
     const partial = join(dir, "stopped.jsonl");
     const stop = await replay("--config", DEMO, "--input", bad, "--max-bad-lines", "1", "--out", partial);

@@ -88,7 +88,7 @@ describe("replay from the historian's SQLite file", () => {
     expect(a.equals(readFileSync(join(dir, "export.jsonl")))).toBe(true);
     expect(a.equals(readFileSync(join(dir, "original.jsonl")))).toBe(true);
     expect(fromDb).toMatch(/over .*smoulder\.db \(historian, SQLite\)/);
-    expect(fromDb).toMatch(/^input: 43,200 stored samples read$/m);
+    expect(fromDb).toMatch(/^input: 48,000 stored samples read$/m); // 20 signals × 2,400 s
     expect(fromDb).toMatch(/^stored signals not in the config \(not read\): lab\.moisture$/m);
   });
 
@@ -112,11 +112,11 @@ describe("replay from the historian's SQLite file", () => {
     const viaDb = read(db, { fromMs, toMs, windowMs: 60_000 });
     expect(viaDb.length).toBe(viaCsv.length);
     expect(viaDb).toEqual(viaCsv);
-    // the default window (one hour for 18 signals at 1 Hz) reads the same
+    // the default window (one hour for 20 signals at 1 Hz) reads the same
     expect(read(db, { fromMs, toMs })).toEqual(viaCsv);
 
-    // 18 signals × (seconds 121 .. 599 and 1,500 .. 2,000) = 18 × (479 + 501)
-    expect(viaDb.length).toBe(18 * (479 + 501));
+    // 20 signals × (seconds 121 .. 599 and 1,500 .. 2,000) = 20 × (479 + 501)
+    expect(viaDb.length).toBe(20 * (479 + 501));
     expect(viaDb[0]!.sourceTimeMs).toBe(SIM_START_MS + 121_000);
     expect(viaDb.at(-1)!.sourceTimeMs).toBe(toMs);
     expect(viaDb.some((s) => s.sourceTimeMs >= gapFrom && s.sourceTimeMs < gapTo)).toBe(false);

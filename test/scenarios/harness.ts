@@ -33,7 +33,18 @@ export interface ScenarioSpec {
   seed: number;
   /** Simulated seconds taken from the start of the scenario. */
   durationS: number;
+  /**
+   * Changes to named rules of the config, for a scenario that shows a badly tuned rule; the rest
+   * of the config stays the shipped one, so the scenario follows every later change to it.
+   */
+  ruleOverrides?: Record<string, RuleOverride>;
+  /** What the scenario shows and why it changes what it changes (JSON has no comments). */
+  note?: string;
 }
+
+/** The tuning fields a scenario may change on a rule. */
+const OVERRIDABLE = ["deadband", "onDelayS", "offDelayS", "reAlertS"] as const;
+export type RuleOverride = Partial<Record<(typeof OVERRIDABLE)[number], number>>;
 
 /** Folders under test/scenarios/ that hold a scenario.json. */
 export function scenarioFolders(): string[] {
@@ -55,9 +66,17 @@ export function readScenarioSpec(folder: string): ScenarioSpec {
   const fail = (key: string, expected: string) => {
     throw new Error(`${file}: ${key}: expected ${expected}, found ${JSON.stringify(o?.[key])}`);
   };
-  if (o === null || typeof o !== "object" || Array.isArray(o)) throw new Error(`${file}: expected an object { config, sim, seed, durationS }, found ${JSON.stringify(raw)}`);
-  const extra = Object.keys(o).filter((k) => !["config", "sim", "seed", "durationS"].includes(k));
-  if (extra.length > 0) throw new Error(`${file}: expected only the keys config, sim, seed, durationS, found also ${extra.join(", ")}`);
+  if (o === null || typeof o !== "object" || Array.isArray(o)) throw new Error(`${file}: expected an object { config, sim, seed, durationS[, ruleOverrides] }, found ${JSON.stringify(raw)}`);
+  const extra = Object.keys(o).filter((k) => !["config", "sim", "seed", "durationS", "ruleOverrides", "note"].includes(k));
+  if (extra.length > 0) throw new Error(`${file}: expected only the keys config, sim, seed, durationS, ruleOverrides, note, found also ${extra.join(", ")}`);
+  if (o.ruleOverrides !== undefined) {
+    const ro = o.ruleOverrides as Record<string, unknown>;
+    if (ro === null || typeof ro !== "object" || Array.isArray(ro)) fail("ruleOverrides", "an object of rule id → { deadband, onDelayS, offDelayS, reAlertS }");
+    for (const [id, v] of Object.entries(ro)) {
+      const bad = v === null || typeof v !== "object" || Object.entries(v as object).some(([k, x]) => !(OVERRIDABLE as readonly string[]).includes(k) || typeof x !== "number" || !(x >= 0));
+      if (bad) throw new Error(`${file}: ruleOverrides.${id}: expected { ${OVERRIDABLE.join(", ")} } with numbers ≥ 0, found ${JSON.stringify(v)}`);
+    }
+  }
   if (typeof o.config !== "string" || o.config === "") fail("config", "a path to a config file, relative to the folder");
   if (typeof o.sim !== "string" || !scenarioNames().includes(o.sim)) fail("sim", `one of ${scenarioNames().join(", ")}`);
   if (typeof o.seed !== "number" || !Number.isInteger(o.seed)) fail("seed", "an integer");
@@ -69,7 +88,12 @@ export function readScenarioSpec(folder: string): ScenarioSpec {
 }
 
 export function configOf(folder: string, spec: ScenarioSpec): MillwardenConfig {
-  return loadConfig(resolve(SCENARIOS_DIR, folder, spec.config));
+  const cfg = loadConfig(resolve(SCENARIOS_DIR, folder, spec.config));
+  if (!spec.ruleOverrides) return cfg;
+  for (const id of Object.keys(spec.ruleOverrides)) {
+    if (!cfg.rules.some((r) => r.id === id)) throw new Error(`test/scenarios/${folder}/scenario.json: ruleOverrides: no rule "${id}" in ${spec.config}`);
+  }
+  return { ...cfg, rules: cfg.rules.map((r) => ({ ...r, ...(spec.ruleOverrides![r.id] ?? {}) })) };
 }
 
 /** The simulator's frames as samples of the config's signals (topic suffix = tag). */

@@ -401,10 +401,12 @@ const CHECKS: Record<string, Record<string, Check>> = {
       expect(typeof margin).toBe("number");
       expect(Math.abs((margin as number) - independentO2MarginPctPt(signalValue(after, "vm2.outlet.o2")!, signalValue(after, "bf2.outlet.h2o")!))).toBeLessThan(0.3);
     },
-    "without the status signal (config/demo.yaml) the same check gases would raise O2 and CO advisories": ({ samples }) => {
+    "without the analyser's status signal the same check gases would raise O2 and CO advisories": ({ samples }) => {
       const demo = loadConfig(DEMO_CONFIG);
-      const known = new Set(demo.signals.map((x) => x.id));
-      const blind = runCore(demo, samples.filter((x) => known.has(x.signal)));
+      // config/demo.yaml without the status contact: bf2-a213 has no functionCheckSignal.
+      const unaware = { ...demo, analysers: demo.analysers.map(({ functionCheckSignal: _, ...a }) => a) };
+      expect(demo.analysers.find((a) => a.id === "bf2-a213")?.functionCheckSignal).toBe("bf2.a213.status");
+      const blind = runCore(unaware, samples);
       const raised = annunciations(blind.transitions).filter((t) => t.atMs >= SIM_START_MS + CAL_STATUS_ON_S * 1000);
       const ids = new Set(raised.map((t) => t.advisoryId));
       // 20.9 % O2 (instrument air) is far above the 13 % dry limit; 800 ppm CO is far above 400 ppm.
