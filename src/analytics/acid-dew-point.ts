@@ -40,11 +40,16 @@ export interface AcidDewPointView {
 
 const fmt = (v: number, digits = 1) => v.toFixed(digits);
 
+/**
+ * The acid dew point and its margin. `describe` false leaves the reason of a known margin
+ * empty (acidDewPointReason gives it); the reason of an unknown one is always given.
+ */
 export function evaluateAcidDewPoint(
   cfg: AcidDewPointConfig,
   sources: ReadonlyMap<string, MoistureSourceView>,
   trust: TrustOf,
   barometricPa: number,
+  describe = true,
 ): AcidDewPointView {
   const view: AcidDewPointView = {
     id: cfg.id,
@@ -72,16 +77,13 @@ export function evaluateAcidDewPoint(
   else if (moisture.status !== "ok" || moisture.h2oPctVol === null) dewWhy.push(`moisture source ${moisture.id}: ${moisture.reason}`);
   else view.h2oPctVol = moisture.h2oPctVol;
 
-  let so3How = "";
   try {
     const s = cfg.so3;
     if (s.from === "measured") {
       view.so3Ppm = readInput({ signal: s.signal }, trust, dewWhy);
-      so3How = `SO3 measured by ${s.signal}`;
     } else if (s.from === "so2") {
       view.so2Ppm = readInput({ signal: s.signal }, trust, dewWhy);
       if (view.so2Ppm !== null) view.so3Ppm = so3PpmFromSo2(view.so2Ppm, s.conversionPct / 100);
-      so3How = `SO3 = ${s.conversionPct} % of the SO2 measured by ${s.signal}`;
     } else {
       const feed = readInput({ signal: s.fuelFeed }, trust, dewWhy);
       const flow = readInput(s.gasFlowNm3PerH, trust, dewWhy);
@@ -90,7 +92,6 @@ export function evaluateAcidDewPoint(
         view.so2Ppm = so2PpmFromFuelSulfur(Math.max(0, feed), s.sulfurPctMass, flow);
         view.so3Ppm = so3PpmFromSo2(view.so2Ppm, s.conversionPct / 100);
       }
-      so3How = `SO3 = ${s.conversionPct} % of the SO2 from ${s.sulfurPctMass} % sulfur in the fuel (${s.fuelFeed})`;
     }
   } catch (e) {
     dewWhy.push((e as Error).message);
@@ -132,12 +133,18 @@ export function evaluateAcidDewPoint(
   }
   const why = [...dewWhy, ...tempWhy];
   if (why.length || view.acidDewPointC === null || view.coldestTempC === null) return { ...view, reason: why.join("; ") || "not computable" };
-  return {
-    ...view,
-    marginK: view.coldestTempC - view.acidDewPointC,
-    status: "ok",
-    reason:
-      `${view.methodName}; ${so3How} (${fmt(view.so3Ppm!, 2)} ppm); H2O ${fmt(view.h2oPctVol!)} % from ${moisture!.name}; ` +
-      `coldest ${view.coldestSignalId} at ${fmt(view.coldestTempC)} °C`,
-  };
+  const known: AcidDewPointView = { ...view, marginK: view.coldestTempC - view.acidDewPointC, status: "ok" };
+  return describe ? { ...known, reason: acidDewPointReason(cfg, known, moisture!.name) } : known;
+}
+
+/** How a known acid dew point margin was obtained (evaluateAcidDewPoint's reason when known); `moistureName` names its moisture source. */
+export function acidDewPointReason(cfg: AcidDewPointConfig, v: AcidDewPointView, moistureName: string): string {
+  const s = cfg.so3;
+  const so3How =
+    s.from === "measured"
+      ? `SO3 measured by ${s.signal}`
+      : s.from === "so2"
+        ? `SO3 = ${s.conversionPct} % of the SO2 measured by ${s.signal}`
+        : `SO3 = ${s.conversionPct} % of the SO2 from ${s.sulfurPctMass} % sulfur in the fuel (${s.fuelFeed})`;
+  return `${v.methodName}; ${so3How} (${fmt(v.so3Ppm!, 2)} ppm); H2O ${fmt(v.h2oPctVol!)} % from ${moistureName}; ` + `coldest ${v.coldestSignalId} at ${fmt(v.coldestTempC!)} °C`;
 }

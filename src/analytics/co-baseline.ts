@@ -34,7 +34,13 @@ export class CoBaseline {
   private readonly needValues: number;
   private lastPushS: number | null = null;
   private gas: { value: number; changedAtS: number | null; from: number | null } | null = null;
-  private last: BaselineResult;
+  // What the last update() found, as plain values; result and reason are built from them when asked.
+  private updated = false;
+  private lastPpm: number | null = null;
+  private lastValues = 0;
+  private lastFrozen: string | null = null;
+  private lastPhase: MillPhase | null = null;
+  private last: BaselineResult | null = null;
 
   constructor(
     readonly cfg: CoBaselineConfig,
@@ -42,7 +48,6 @@ export class CoBaseline {
   ) {
     this.median = new RollingMedianBaseline(cfg.windowS, cfg.decimateS);
     this.needValues = Math.ceil(cfg.minS / cfg.decimateS);
-    this.last = { ppm: null, status: "unknown", reason: "no data yet", frozen: null, phase: null, phaseNote: "", values: 0 };
   }
 
   get count(): number {
@@ -61,45 +66,75 @@ export class CoBaseline {
    * Decide the freeze at nowMs, then offer the latest trusted CO sample (null when the CO
    * cannot be trusted now). `gasSource` is the gas source signal's trust, null when none is configured.
    */
-  update(nowMs: number, phase: MillPhase | null, gasSource: Trust | null, latest: { tS: number; v: number } | null): BaselineResult {
-    const why: string[] = [];
-    let phaseNote: string;
-    if (phase === null) phaseNote = `no operating phase computed for ${this.phaseUnit}: the baseline is not frozen by phase`;
-    else if (this.cfg.freezePhases.includes(phase)) {
-      phaseNote = `${this.phaseUnit} in ${phase}: frozen`;
-      why.push(`${this.phaseUnit} in ${phase}`);
-    } else phaseNote = `${this.phaseUnit} in ${phase}: follows the data`;
+  update(nowMs: number, phase: MillPhase | null, gasSource: Trust | null, latest: { tS: number; v: number } | null): void {
+    const phaseWhy = phase !== null && this.cfg.freezePhases.includes(phase) ? `${this.phaseUnit} in ${phase}` : null;
+    let gasWhy: string | null = null;
     if (gasSource !== null) {
       const g = this.gas;
-      if (!gasSource.ok) why.push(`gas source unknown (${gasSource.reason})`);
+      if (!gasSource.ok) gasWhy = `gas source unknown (${gasSource.reason})`;
       else if (g?.changedAtS != null) {
         const leftS = g.changedAtS + this.cfg.gasSourceFreezeS - nowMs / 1000;
-        if (leftS > 0) why.push(`gas source changed from ${g.from} to ${g.value}; frozen ${Math.ceil(leftS)} s more`);
+        if (leftS > 0) gasWhy = `gas source changed from ${g.from} to ${g.value}; frozen ${Math.ceil(leftS)} s more`;
       }
     }
-    if (why.length) this.median.freeze(why.join("; "));
+    const freeze = phaseWhy !== null || gasWhy !== null;
+    if (freeze) this.median.freeze(phaseWhy !== null && gasWhy !== null ? `${phaseWhy}; ${gasWhy}` : (phaseWhy ?? gasWhy)!);
     else this.median.unfreeze();
-    if (!why.length && latest && (this.lastPushS === null || latest.tS > this.lastPushS)) {
+    if (!freeze && latest && (this.lastPushS === null || latest.tS > this.lastPushS)) {
       this.median.push(latest.tS, latest.v);
       this.lastPushS = latest.tS;
     }
-
-    const frozen = this.median.frozen;
-    const values = this.median.count;
-    const common = { frozen, phase, phaseNote, values };
+    this.updated = true;
+    this.lastFrozen = this.median.frozen;
+    this.lastValues = this.median.count;
+    this.lastPhase = phase;
     const ppm = this.median.value();
-    if (values < this.needValues || ppm === null) {
-      const filling = `${values} of ${this.needValues} values (one per ${this.cfg.decimateS} s)`;
-      const reason = frozen ? `baseline frozen (${frozen}) before it had filled: ${filling}` : `baseline filling: ${filling}`;
-      this.last = { ppm: null, status: "unknown", reason, ...common };
-    } else {
-      const over = `median of ${values} values over ${this.cfg.windowS} s`;
-      this.last = { ppm, status: "ok", reason: frozen ? `${over}, frozen: ${frozen}` : over, ...common };
-    }
-    return this.last;
+    this.lastPpm = this.lastValues < this.needValues ? null : ppm;
+    this.last = null;
   }
 
+  /** The baseline as of the last update, ppm; null while filling. */
+  get ppm(): number | null {
+    return this.lastPpm;
+  }
+
+  /** Why the baseline is frozen as of the last update, or null. */
+  get frozen(): string | null {
+    return this.lastFrozen;
+  }
+
+  /** The reason that goes with `ppm`: how it was taken, or why it is unknown. */
+  get reason(): string {
+    if (!this.updated) return "no data yet";
+    const values = this.lastValues;
+    const frozen = this.lastFrozen;
+    if (this.lastPpm === null) {
+      const filling = `${values} of ${this.needValues} values (one per ${this.cfg.decimateS} s)`;
+      return frozen ? `baseline frozen (${frozen}) before it had filled: ${filling}` : `baseline filling: ${filling}`;
+    }
+    const over = `median of ${values} values over ${this.cfg.windowS} s`;
+    return frozen ? `${over}, frozen: ${frozen}` : over;
+  }
+
+  /** The full result of the last update (built when asked for). */
   get result(): BaselineResult {
+    if (this.last === null) {
+      if (!this.updated) this.last = { ppm: null, status: "unknown", reason: "no data yet", frozen: null, phase: null, phaseNote: "", values: 0 };
+      else {
+        const phase = this.lastPhase;
+        const phaseNote =
+          phase === null
+            ? `no operating phase computed for ${this.phaseUnit}: the baseline is not frozen by phase`
+            : this.cfg.freezePhases.includes(phase)
+              ? `${this.phaseUnit} in ${phase}: frozen`
+              : `${this.phaseUnit} in ${phase}: follows the data`;
+        const common = { frozen: this.lastFrozen, phase, phaseNote, values: this.lastValues };
+        this.last =
+          this.lastPpm === null
+            ? { ppm: null, status: "unknown", reason: this.reason, ...common }
+            : { ppm: this.lastPpm, status: "ok", reason: this.reason, ...common };
+      }
+    }
     return this.last;
   }
 }

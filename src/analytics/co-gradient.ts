@@ -44,13 +44,15 @@ export class SlopeWindow {
   private lastSlot: number | null = null;
   private newestS: number | null = null;
   private clears = 0;
-  // Theil–Sen costs a sort of m(m−1)/2 pairwise slopes per computation, least squares O(1).
+  // Theil–Sen costs the median of m(m−1)/2 pairwise slopes per computation, least squares O(1).
   // The robust slope is recomputed once the window has moved on by one bucket width
   // (windowS / ROBUST_BUCKETS: 5 s for a 5 min window), at once after a restart: between
   // refreshes the bucket representatives barely move, and the estimate lags by half a
   // window anyway. robustAsOfMs tells how old it is.
   private readonly refreshS: number;
-  private robustCache: { clears: number; atS: number; slope: number | null } | null = null;
+  private cacheClears = -1;
+  private cacheAtS = 0;
+  private cacheSlope: number | null = null;
 
   constructor(
     readonly windowS: number,
@@ -88,32 +90,103 @@ export class SlopeWindow {
     this.clears++;
   }
 
-  private robustSlope(): { slope: number | null; atS: number } {
+  /** Refreshes the cached robust slope when due (see refreshS); cacheAtS tells its age. */
+  private robustSlope(): number | null {
     const newest = this.newestS!;
-    const c = this.robustCache;
-    if (c === null || c.clears !== this.clears || newest - c.atS >= this.refreshS) {
-      this.robustCache = { clears: this.clears, atS: newest, slope: this.robust.slopePerS() };
+    if (this.cacheClears !== this.clears || newest - this.cacheAtS >= this.refreshS) {
+      this.cacheClears = this.clears;
+      this.cacheAtS = newest;
+      this.cacheSlope = this.robust.slopePerS();
     }
-    return this.robustCache!;
+    return this.cacheSlope;
+  }
+
+  /** Read the window as it stands into `r` (the signal is trusted; the windows filled after `since`). */
+  read(r: WindowReading, minPoints: number, since: string): void {
+    r.windowS = this.windowS;
+    r.trusted = true;
+    r.whyNot = "";
+    r.since = since;
+    r.minPoints = minPoints;
+    r.count = this.count;
+    r.spanS = this.spanS;
+    r.robustPpmPerMin = null;
+    r.lsPpmPerMin = null;
+    r.robustAsOfMs = null;
+    if (r.count < minPoints || r.spanS < this.windowS / 2) {
+      r.kind = "filling";
+      return;
+    }
+    const robust = this.robustSlope();
+    const ls = this.ls.slopePerS();
+    if (robust === null || ls === null) {
+      r.kind = "no-spread";
+      return;
+    }
+    r.kind = "ok";
+    r.robustAsOfMs = Math.round(this.cacheAtS * 1000);
+    r.robustPpmPerMin = robust * 60;
+    r.lsPpmPerMin = ls * 60;
+  }
+
+  /** The signal cannot be trusted now: `r` says why (the window is not read). */
+  readUntrusted(r: WindowReading, whyNot: string): void {
+    r.windowS = this.windowS;
+    r.trusted = false;
+    r.whyNot = whyNot;
+    r.count = this.count;
+    r.spanS = this.spanS;
+    r.robustPpmPerMin = null;
+    r.lsPpmPerMin = null;
+    r.robustAsOfMs = null;
   }
 
   evaluate(minPoints: number, since: string): WindowResult {
-    const base = { windowS: this.windowS, points: this.count, spanS: this.spanS, robustAsOfMs: null };
-    const needSpanS = this.windowS / 2;
-    if (this.count < minPoints || this.spanS < needSpanS) {
-      const reason = `window filling after ${since} (${this.count} points over ${Math.round(this.spanS)} s; needs ${minPoints} over ${needSpanS} s)`;
-      return { ...base, robustPpmPerMin: null, lsPpmPerMin: null, status: "unknown", reason };
+    const r = new WindowReading();
+    this.read(r, minPoints, since);
+    return r.result();
+  }
+}
+
+/**
+ * One window at one tick as plain numbers. The monitor reads this at every tick; the reason
+ * text and the WindowResult are built only when someone asks (an unknown value, a snapshot).
+ */
+export class WindowReading {
+  windowS = 0;
+  trusted = false;
+  whyNot = "";
+  /** Why the windows last started again (they fill after it). */
+  since = "";
+  minPoints = 0;
+  count = 0;
+  spanS = 0;
+  kind: "filling" | "no-spread" | "ok" = "filling";
+  robustPpmPerMin: number | null = null;
+  lsPpmPerMin: number | null = null;
+  robustAsOfMs: number | null = null;
+
+  get reason(): string {
+    if (!this.trusted) return this.whyNot;
+    if (this.kind === "filling") {
+      return `window filling after ${this.since} (${this.count} points over ${Math.round(this.spanS)} s; needs ${this.minPoints} over ${this.windowS / 2} s)`;
     }
-    const { slope: robust, atS } = this.robustSlope();
-    const ls = this.ls.slopePerS();
-    if (robust === null || ls === null) return { ...base, robustPpmPerMin: null, lsPpmPerMin: null, status: "unknown", reason: "no spread in time" };
+    return this.kind === "no-spread" ? "no spread in time" : `Theil–Sen over ${this.windowS} s, ${this.count} points`;
+  }
+
+  result(): WindowResult {
+    if (!this.trusted) {
+      return { windowS: this.windowS, robustPpmPerMin: null, robustAsOfMs: null, lsPpmPerMin: null, points: this.count, spanS: this.spanS, status: "unknown", reason: this.whyNot };
+    }
     return {
-      ...base,
-      robustAsOfMs: Math.round(atS * 1000),
-      robustPpmPerMin: robust * 60,
-      lsPpmPerMin: ls * 60,
-      status: "ok",
-      reason: `Theil–Sen over ${this.windowS} s, ${this.count} points`,
+      windowS: this.windowS,
+      points: this.count,
+      spanS: this.spanS,
+      robustAsOfMs: this.robustAsOfMs,
+      robustPpmPerMin: this.robustPpmPerMin,
+      lsPpmPerMin: this.lsPpmPerMin,
+      status: this.kind === "ok" ? "ok" : "unknown",
+      reason: this.reason,
     };
   }
 }
@@ -202,12 +275,22 @@ export class CoGradient {
     this.interruption = { atMs, reason };
   }
 
+  /** Both windows as they stand into `short` and `long`; `trusted` is false when the signal is stale or bad now. */
+  read(short: WindowReading, long: WindowReading, trusted: boolean, whyNot: string): void {
+    if (trusted) {
+      this.short.read(short, this.cfg.minPoints, this.interruption.reason);
+      this.long.read(long, this.cfg.minPoints, this.interruption.reason);
+    } else {
+      this.short.readUntrusted(short, whyNot);
+      this.long.readUntrusted(long, whyNot);
+    }
+  }
+
   /** Both windows as they stand; `trusted` is false when the signal is stale or bad now. */
   evaluate(trusted: boolean, whyNot: string): { short: WindowResult; long: WindowResult } {
-    const one = (w: SlopeWindow): WindowResult =>
-      trusted
-        ? w.evaluate(this.cfg.minPoints, this.interruption.reason)
-        : { windowS: w.windowS, robustPpmPerMin: null, robustAsOfMs: null, lsPpmPerMin: null, points: w.count, spanS: w.spanS, status: "unknown", reason: whyNot };
-    return { short: one(this.short), long: one(this.long) };
+    const short = new WindowReading();
+    const long = new WindowReading();
+    this.read(short, long, trusted, whyNot);
+    return { short: short.result(), long: long.result() };
   }
 }

@@ -19,7 +19,7 @@ import type { Monitor, TickContext } from "../core/calculator.js";
 import type { Sample } from "../core/types.js";
 import { grahamInterpretation, grahamRatio, type GrahamBand } from "../physics/graham.js";
 import { CoBaseline, type BaselineResult } from "./co-baseline.js";
-import { CoGradient, type Interruption, type WindowResult } from "./co-gradient.js";
+import { CoGradient, WindowReading, type Interruption, type WindowResult } from "./co-gradient.js";
 import type { Trust } from "./signal-state.js";
 
 export type CoWindowView = WindowResult;
@@ -95,10 +95,41 @@ export interface CoRiseView {
   historyPoints: number;
 }
 
+/** A measuring point, and what its last tick found (plain values; the view is built from them when asked). */
 interface Point {
   cfg: CoPointConfig;
   gradient: CoGradient;
   baseline: CoBaseline;
+  /** Derived keys, built once: co.<id>.<quantity>. */
+  keys: { gradient: string; gradientLs: string; gradientLong: string; baseline: string; riseAbove: string; riseLong: string; graham: string };
+  trust: Trust | null;
+  short: WindowReading;
+  long: WindowReading;
+  riseAbovePpm: number | null;
+  riseLongPpmPerH: number | null;
+  o2: Trust | null;
+  n2: Trust | null;
+  /** Graham's ratio when it is emitted (N2 measured or taken by difference); else built with the view. */
+  graham: ReturnType<typeof storeGraham> | null;
+  lastRestart: Interruption;
+  accepted: number;
+  duplicates: number;
+  outOfOrder: number;
+}
+
+/** What a rise's last tick found. */
+interface Rise {
+  cfg: CoRiseConfig;
+  inlet: Point;
+  outlet: Point;
+  key: string;
+  outletPpm: number | null;
+  inletPpm: number | null;
+  inletAtMs: number | null;
+  inletHow: CoRiseView["inletHow"];
+  risePpm: number | null;
+  reason: string;
+  historyPoints: number;
 }
 
 const N2_BY_DIFFERENCE_CAVEAT =
@@ -146,141 +177,220 @@ export function storeGraham(
 export class CoMonitor implements Monitor {
   private readonly points: Point[];
   private readonly byId = new Map<string, Point>();
-  private readonly bySignal = new Map<string, CoGradient[]>();
-  private readonly byGasSource = new Map<string, CoBaseline[]>();
-  private pointViews: CoPointView[] = [];
-  private riseViews: CoRiseView[] = [];
+  /** Signal id → the CO points it feeds and the baselines it is the gas source of (one lookup per sample). */
+  private readonly bySignal = new Map<string, { gradients: CoGradient[]; baselines: CoBaseline[] }>();
+  private readonly rises: Rise[] = [];
+  private ticked = false;
+  /** Views of the last tick, built on the first view() after it. */
+  private views: { coPoints: CoPointView[]; coRises: CoRiseView[] } | null = null;
 
-  constructor(
-    points: readonly CoPointConfig[],
-    private readonly rises: readonly CoRiseConfig[] = [],
-  ) {
-    this.points = points.map((cfg) => ({ cfg, gradient: new CoGradient(cfg), baseline: new CoBaseline(cfg.baseline, cfg.baseline.phaseUnit ?? cfg.unit) }));
+  constructor(points: readonly CoPointConfig[], rises: readonly CoRiseConfig[] = []) {
+    this.points = points.map((cfg) => {
+      const gradient = new CoGradient(cfg);
+      const key = `co.${cfg.id}`;
+      return {
+        cfg,
+        gradient,
+        baseline: new CoBaseline(cfg.baseline, cfg.baseline.phaseUnit ?? cfg.unit),
+        keys: {
+          gradient: `${key}.gradientPpmPerMin`,
+          gradientLs: `${key}.gradientLsPpmPerMin`,
+          gradientLong: `${key}.gradientLongPpmPerMin`,
+          baseline: `${key}.baselinePpm`,
+          riseAbove: `${key}.riseAboveBaselinePpm`,
+          riseLong: `${key}.riseLongPpmPerH`,
+          graham: `${key}.grahamRatio`,
+        },
+        trust: null,
+        short: new WindowReading(),
+        long: new WindowReading(),
+        riseAbovePpm: null,
+        riseLongPpmPerH: null,
+        o2: null,
+        n2: null,
+        graham: null,
+        lastRestart: gradient.interruption,
+        accepted: 0,
+        duplicates: 0,
+        outOfOrder: 0,
+      };
+    });
     for (const p of this.points) {
       this.byId.set(p.cfg.id, p);
-      push(this.bySignal, p.cfg.signal, p.gradient);
-      if (p.cfg.baseline.gasSourceSignal) push(this.byGasSource, p.cfg.baseline.gasSourceSignal, p.baseline);
+      this.routeOf(p.cfg.signal).gradients.push(p.gradient);
+      if (p.cfg.baseline.gasSourceSignal) this.routeOf(p.cfg.baseline.gasSourceSignal).baselines.push(p.baseline);
     }
     for (const r of rises) {
       const inlet = this.byId.get(r.inlet);
-      if (!inlet || !this.byId.has(r.outlet)) {
+      const outlet = this.byId.get(r.outlet);
+      if (!inlet || !outlet) {
         throw new Error(`CoMonitor: rise "${r.id}" names CO points "${r.inlet}" and "${r.outlet}"; expected ids among ${[...this.byId.keys()].join(", ")}`);
       }
       inlet.gradient.keepHistory(r.transportDelayS + r.toleranceS);
+      this.rises.push({
+        cfg: r,
+        inlet,
+        outlet,
+        key: `co-rise.${r.id}.risePpm`,
+        outletPpm: null,
+        inletPpm: null,
+        inletAtMs: null,
+        inletHow: null,
+        risePpm: null,
+        reason: "",
+        historyPoints: 0,
+      });
     }
   }
 
   ingest(s: Sample): void {
-    for (const g of this.bySignal.get(s.signal) ?? []) g.add(s);
-    for (const b of this.byGasSource.get(s.signal) ?? []) b.noteGasSource(s);
+    const route = this.bySignal.get(s.signal);
+    if (!route) return;
+    for (const g of route.gradients) g.add(s);
+    for (const b of route.baselines) b.noteGasSource(s);
+  }
+
+  private routeOf(signalId: string): { gradients: CoGradient[]; baselines: CoBaseline[] } {
+    let r = this.bySignal.get(signalId);
+    if (!r) this.bySignal.set(signalId, (r = { gradients: [], baselines: [] }));
+    return r;
   }
 
   tick(ctx: TickContext): void {
-    this.pointViews = this.points.map((p) => this.tickPoint(p, ctx));
-    this.riseViews = this.rises.map((r) => this.tickRise(r, ctx));
+    for (const p of this.points) this.tickPoint(p, ctx);
+    for (const r of this.rises) this.tickRise(r, ctx);
+    this.ticked = true;
+    this.views = null;
   }
 
-  private tickPoint({ cfg, gradient: g, baseline: b }: Point, ctx: TickContext): CoPointView {
-    const key = `co.${cfg.id}`;
+  // Reasons are built only for unknown values: a known value's reason is not recorded (see TickContext.emit),
+  // so it is built only when a view asks.
+  private tickPoint(p: Point, ctx: TickContext): void {
+    const { cfg, gradient: g, baseline: b, keys, short, long } = p;
     const t = ctx.trust(cfg.signal);
+    p.trust = t;
     if (!t.ok) g.interrupt(ctx.nowMs, t.reason);
-    const { short, long } = g.evaluate(t.ok, t.reason);
-    ctx.emit(`${key}.gradientPpmPerMin`, short.robustPpmPerMin, short.reason);
-    ctx.emit(`${key}.gradientLsPpmPerMin`, short.lsPpmPerMin, short.reason);
-    ctx.emit(`${key}.gradientLongPpmPerMin`, long.robustPpmPerMin, long.reason);
+    g.read(short, long, t.ok, t.reason);
+    ctx.emit(keys.gradient, short.robustPpmPerMin, short.robustPpmPerMin === null ? short.reason : "");
+    ctx.emit(keys.gradientLs, short.lsPpmPerMin, short.lsPpmPerMin === null ? short.reason : "");
+    ctx.emit(keys.gradientLong, long.robustPpmPerMin, long.robustPpmPerMin === null ? long.reason : "");
 
     const gasCfg = cfg.baseline.gasSourceSignal;
-    const base = b.update(ctx.nowMs, ctx.phase(b.phaseUnit), gasCfg ? ctx.trust(gasCfg) : null, t.ok ? g.latest : null);
+    b.update(ctx.nowMs, ctx.phase(b.phaseUnit), gasCfg ? ctx.trust(gasCfg) : null, t.ok ? g.latest : null);
     const coPpm = t.ok ? t.value : null;
-    let riseAbovePpm: number | null = null;
-    let riseReason: string;
-    if (coPpm === null) riseReason = t.reason;
-    else if (base.ppm === null) riseReason = base.reason;
-    else {
-      riseAbovePpm = coPpm - base.ppm;
-      riseReason = base.frozen ? `against the frozen baseline (${base.frozen})` : "";
-    }
-    ctx.emit(`${key}.baselinePpm`, base.ppm, base.reason);
-    ctx.emit(`${key}.riseAboveBaselinePpm`, riseAbovePpm, riseReason);
+    const basePpm = b.ppm;
+    p.riseAbovePpm = coPpm === null || basePpm === null ? null : coPpm - basePpm;
+    ctx.emit(keys.baseline, basePpm, basePpm === null ? b.reason : "");
+    ctx.emit(keys.riseAbove, p.riseAbovePpm, p.riseAbovePpm === null ? riseReason(p) : "");
 
-    let store: CoStoreView | null = null;
+    p.graham = null;
     if (cfg.store) {
-      const riseLongPpmPerH = long.robustPpmPerMin === null ? null : long.robustPpmPerMin * 60;
-      ctx.emit(`${key}.riseLongPpmPerH`, riseLongPpmPerH, long.reason);
-      const gr = storeGraham(cfg.store, coPpm, ctx.trust(cfg.store.o2Signal), cfg.store.n2Signal ? ctx.trust(cfg.store.n2Signal) : null);
-      if (gr.n2Source !== "none") ctx.emit(`${key}.grahamRatio`, gr.grahamRatio, gr.grahamReason);
-      store = { riseLongPpmPerH, riseReason: long.reason, o2Signal: cfg.store.o2Signal, ...gr };
+      p.riseLongPpmPerH = long.robustPpmPerMin === null ? null : long.robustPpmPerMin * 60;
+      ctx.emit(keys.riseLong, p.riseLongPpmPerH, p.riseLongPpmPerH === null ? long.reason : "");
+      p.o2 = ctx.trust(cfg.store.o2Signal);
+      p.n2 = cfg.store.n2Signal ? ctx.trust(cfg.store.n2Signal) : null;
+      if (cfg.store.n2Signal || cfg.store.n2ByDifference) {
+        p.graham = storeGraham(cfg.store, coPpm, p.o2, p.n2);
+        ctx.emit(keys.graham, p.graham.grahamRatio, p.graham.grahamReason);
+      }
     }
-
-    return {
-      id: cfg.id,
-      name: cfg.name,
-      unitId: cfg.unit,
-      signal: cfg.signal,
-      coPpm,
-      gradientPpmPerMin: short.robustPpmPerMin,
-      gradientLsPpmPerMin: short.lsPpmPerMin,
-      gradientLongPpmPerMin: long.robustPpmPerMin,
-      windowS: cfg.shortWindowS,
-      transportLagS: cfg.transportLagS,
-      status: short.status,
-      reason: short.reason,
-      short,
-      long,
-      baseline: { ...base, windowS: cfg.baseline.windowS, riseAbovePpm, riseReason },
-      store,
-      lastRestart: g.interruption,
-      samples: { accepted: g.accepted, duplicates: g.duplicates, outOfOrder: g.outOfOrder },
-    };
+    p.lastRestart = g.interruption;
+    p.accepted = g.accepted;
+    p.duplicates = g.duplicates;
+    p.outOfOrder = g.outOfOrder;
   }
 
-  private tickRise(r: CoRiseConfig, ctx: TickContext): CoRiseView {
-    const inlet = this.byId.get(r.inlet)!;
-    const outlet = this.byId.get(r.outlet)!;
+  private tickRise(r: Rise, ctx: TickContext): void {
+    const { cfg, inlet, outlet } = r;
     const history = inlet.gradient.history!;
-    const view: CoRiseView = {
-      id: r.id,
-      name: r.name,
-      unitId: r.unit,
-      inlet: r.inlet,
-      outlet: r.outlet,
-      transportDelayS: r.transportDelayS,
-      outletPpm: null,
-      inletPpm: null,
-      inletAtMs: null,
-      inletHow: null,
-      risePpm: null,
-      status: "unknown",
-      reason: "",
-      historyPoints: history.count,
-    };
-    const key = `co-rise.${r.id}.risePpm`;
-    const unknown = (reason: string): CoRiseView => {
-      ctx.emit(key, null, reason);
-      return { ...view, reason };
-    };
+    r.historyPoints = history.count;
+    r.outletPpm = r.inletPpm = r.inletAtMs = r.risePpm = null;
+    r.inletHow = null;
+    r.reason = "";
     const tOut = ctx.trust(outlet.cfg.signal);
     const tIn = ctx.trust(inlet.cfg.signal);
-    if (!tOut.ok) return unknown(`outlet ${tOut.reason}`);
-    if (!tIn.ok) return unknown(`inlet ${tIn.reason}`);
     const out = outlet.gradient.latest;
-    if (!out) return unknown(`outlet: ${outlet.gradient.interruption.reason}`);
-    view.outletPpm = out.v;
-    const targetS = out.tS - r.transportDelayS;
-    const got = history.valueAt(targetS, r.toleranceS, inlet.cfg.maxGapS);
-    if (got.value === null) return unknown(`inlet ${r.transportDelayS} s before the outlet sample: ${got.reason}`);
-    const risePpm = out.v - got.value;
-    ctx.emit(key, risePpm, "");
-    return { ...view, inletPpm: got.value, inletAtMs: Math.round(got.atS * 1000), inletHow: got.how, risePpm, status: "ok" };
+    if (!tOut.ok) r.reason = `outlet ${tOut.reason}`;
+    else if (!tIn.ok) r.reason = `inlet ${tIn.reason}`;
+    else if (!out) r.reason = `outlet: ${outlet.gradient.interruption.reason}`;
+    else {
+      r.outletPpm = out.v;
+      const got = history.valueAt(out.tS - cfg.transportDelayS, cfg.toleranceS, inlet.cfg.maxGapS);
+      if (got.value === null) r.reason = `inlet ${cfg.transportDelayS} s before the outlet sample: ${got.reason}`;
+      else {
+        r.inletPpm = got.value;
+        r.inletAtMs = Math.round(got.atS * 1000);
+        r.inletHow = got.how;
+        r.risePpm = out.v - got.value;
+      }
+    }
+    ctx.emit(r.key, r.risePpm, r.reason);
   }
 
   view(): { coPoints: CoPointView[]; coRises: CoRiseView[] } {
-    return { coPoints: this.pointViews, coRises: this.riseViews };
+    if (!this.ticked) return { coPoints: [], coRises: [] };
+    this.views ??= { coPoints: this.points.map(pointView), coRises: this.rises.map(riseView) };
+    return this.views;
   }
 }
 
-function push<K, V>(m: Map<K, V[]>, k: K, v: V): void {
-  const list = m.get(k);
-  if (list) list.push(v);
-  else m.set(k, [v]);
+/** Why the rise above the baseline is unknown, or what it is measured against. */
+function riseReason(p: Point): string {
+  const t = p.trust!;
+  if ((t.ok ? t.value : null) === null) return t.reason;
+  const base = p.baseline;
+  if (base.ppm === null) return base.reason;
+  return base.frozen ? `against the frozen baseline (${base.frozen})` : "";
+}
+
+function pointView(p: Point): CoPointView {
+  const { cfg, short: s, long: l } = p;
+  const t = p.trust!;
+  const short = s.result();
+  const long = l.result();
+  let store: CoStoreView | null = null;
+  if (cfg.store) {
+    const gr = p.graham ?? storeGraham(cfg.store, t.ok ? t.value : null, p.o2!, p.n2);
+    store = { riseLongPpmPerH: p.riseLongPpmPerH, riseReason: long.reason, o2Signal: cfg.store.o2Signal, ...gr };
+  }
+  return {
+    id: cfg.id,
+    name: cfg.name,
+    unitId: cfg.unit,
+    signal: cfg.signal,
+    coPpm: t.ok ? t.value : null,
+    gradientPpmPerMin: short.robustPpmPerMin,
+    gradientLsPpmPerMin: short.lsPpmPerMin,
+    gradientLongPpmPerMin: long.robustPpmPerMin,
+    windowS: cfg.shortWindowS,
+    transportLagS: cfg.transportLagS,
+    status: short.status,
+    reason: short.reason,
+    short,
+    long,
+    baseline: { ...p.baseline.result, windowS: cfg.baseline.windowS, riseAbovePpm: p.riseAbovePpm, riseReason: riseReason(p) },
+    store,
+    lastRestart: p.lastRestart,
+    samples: { accepted: p.accepted, duplicates: p.duplicates, outOfOrder: p.outOfOrder },
+  };
+}
+
+function riseView(r: Rise): CoRiseView {
+  const c = r.cfg;
+  return {
+    id: c.id,
+    name: c.name,
+    unitId: c.unit,
+    inlet: c.inlet,
+    outlet: c.outlet,
+    transportDelayS: c.transportDelayS,
+    outletPpm: r.outletPpm,
+    inletPpm: r.inletPpm,
+    inletAtMs: r.inletAtMs,
+    inletHow: r.inletHow,
+    risePpm: r.risePpm,
+    status: r.risePpm === null ? "unknown" : "ok",
+    reason: r.reason,
+    historyPoints: r.historyPoints,
+  };
 }

@@ -62,12 +62,17 @@ function dewPointOf(source: MoistureSourceView | undefined, sourceId: string, ab
   }
 }
 
+/**
+ * The location's dew point and margin. `describe` false leaves the reason of a known margin
+ * empty (dewPointReason gives it from the reading); the reason of an unknown one is always given.
+ */
 export function evaluateDewPoint(
   cfg: DewPointConfig,
   gasTemp: Trust,
   sources: ReadonlyMap<string, MoistureSourceView>,
   gaugePa: Trust | null,
   barometricPa: number,
+  describe = true,
 ): DewPointReading {
   const used = sources.get(cfg.moisture);
   let absPa: number | null = null;
@@ -135,16 +140,20 @@ export function evaluateDewPoint(
     dewPointDisagreementK,
     disagreementReason,
   };
-  const why = [...new Set([gasTemp.ok ? "" : gasTemp.reason, pressureWhy, dew.why])].filter(Boolean);
-  if (why.length || gasTempC === null || dew.c === null) return { ...base, reason: why.join("; ") || "not computable" };
+  const gasWhy = gasTemp.ok ? "" : gasTemp.reason;
+  if (gasWhy || pressureWhy || dew.why || gasTempC === null || dew.c === null) {
+    const why = [...new Set([gasWhy, pressureWhy, dew.why])].filter(Boolean);
+    return { ...base, reason: why.join("; ") || "not computable" };
+  }
   try {
-    return {
-      ...base,
-      marginK: dewPointMarginK(gasTempC, dew.c),
-      status: "ok",
-      reason: `H2O from ${used!.name} (${used!.kind}); IAPWS-IF97 saturation line at ${(absPa! / 100).toFixed(1)} hPa absolute`,
-    };
+    const known: DewPointReading = { ...base, marginK: dewPointMarginK(gasTempC, dew.c), status: "ok" };
+    return describe ? { ...known, reason: dewPointReason(known) } : known;
   } catch (e) {
     return { ...base, reason: (e as Error).message };
   }
+}
+
+/** How a known margin was obtained, from its reading (evaluateDewPoint's reason when known). */
+export function dewPointReason(r: DewPointReading): string {
+  return `H2O from ${r.moistureSourceName} (${r.moistureSourceKind}); IAPWS-IF97 saturation line at ${(r.absPressurePa! / 100).toFixed(1)} hPa absolute`;
 }

@@ -9,10 +9,11 @@ import {
   type DewPointFamilyConfig,
 } from "../config/sections/dew-point.js";
 import type { Monitor, TickContext } from "../core/calculator.js";
-import { evaluateAcidDewPoint, type AcidDewPointView } from "./acid-dew-point.js";
-import { evaluateDewPoint, type DewPointComparisonView, type DewPointReading } from "./dew-point-margin.js";
+import { acidDewPointReason, evaluateAcidDewPoint, type AcidDewPointView } from "./acid-dew-point.js";
+import { dewPointReason, evaluateDewPoint, type DewPointComparisonView, type DewPointReading } from "./dew-point-margin.js";
 import { MarginTrend } from "./dew-point-trend.js";
-import { evaluateMoistureSource, type MoistureSourceView } from "./moisture-estimate.js";
+import { evaluateMoistureSource, moistureSourceReason, type MoistureSourceView } from "./moisture-estimate.js";
+import type { Trust } from "./signal-state.js";
 
 export type { AcidDewPointView, DewPointComparisonView, MoistureSourceView };
 
@@ -52,12 +53,30 @@ export interface BarometricConfig {
   fallbackPa: number;
 }
 
+/** A location and what its last tick found (its view is built from it when asked). */
+interface Location {
+  cfg: DewPointFamilyConfig["dewPoints"][number];
+  trend: MarginTrend;
+  keys: { dewPointC: string; marginK: string; trend: string; ttc: string; h2oDisagreement: string; dewPointDisagreement: string };
+  /** The reading without the reason of a known margin (dewPointReason gives it). */
+  reading: DewPointReading | null;
+}
+
+type Baro = { pa: number; source: "measured" | "configured"; reason: string };
+
 export class DewPointMonitor implements Monitor {
-  private readonly trends = new Map<string, MarginTrend>();
-  private sourceViews: MoistureSourceView[] = [];
-  private views: DewPointView[] = [];
-  private acidViews: AcidDewPointView[] = [];
-  private summary: DewPointSummaryView[] = [];
+  private readonly locations: Location[];
+  private readonly sourceKeys: string[];
+  private readonly acidKeys: { so3Ppm: string; acidDewPointC: string; marginK: string }[];
+  private readonly plantKeys = { marginK: `dewpoint.${PLANT_WIDE_DEW_POINT_ID}.marginK`, ttc: `dewpoint.${PLANT_WIDE_DEW_POINT_ID}.timeToCondensationS` };
+  // The last tick, as computed: reasons of known values are left out until a view asks.
+  private ticked = false;
+  private sources: MoistureSourceView[] = [];
+  private readonly sourceById = new Map<string, MoistureSourceView>();
+  private acid: AcidDewPointView[] = [];
+  private baroPa = 0;
+  private baroTrust: Trust | null = null;
+  private views: ReturnType<DewPointMonitor["view"]> | null = null;
 
   constructor(
     /** The family's part of the config: moisture sources, dew point locations, acid dew points. */
@@ -65,62 +84,108 @@ export class DewPointMonitor implements Monitor {
     /** Barometric pressure at the site, Pa: a measured signal while trusted, else the configured value. */
     private readonly barometric: BarometricConfig,
   ) {
-    for (const d of this.cfg.dewPoints) this.trends.set(d.id, new MarginTrend(d.trendWindowS, d.trendMinSpanS));
+    this.locations = cfg.dewPoints.map((d) => {
+      const key = `dewpoint.${d.id}`;
+      return {
+        cfg: d,
+        trend: new MarginTrend(d.trendWindowS, d.trendMinSpanS),
+        keys: {
+          dewPointC: `${key}.dewPointC`,
+          marginK: `${key}.marginK`,
+          trend: `${key}.marginTrendKPerMin`,
+          ttc: `${key}.timeToCondensationS`,
+          h2oDisagreement: `${key}.h2oDisagreementPctVol`,
+          dewPointDisagreement: `${key}.dewPointDisagreementK`,
+        },
+        reading: null,
+      };
+    });
+    this.sourceKeys = cfg.moistureSources.map((m) => `moisture.${m.id}.h2oPctVol`);
+    this.acidKeys = cfg.acidDewPoints.map((a) => ({ so3Ppm: `aciddewpoint.${a.id}.so3Ppm`, acidDewPointC: `aciddewpoint.${a.id}.acidDewPointC`, marginK: `aciddewpoint.${a.id}.marginK` }));
   }
 
+  // Reasons are passed for unknown values and for endless times (they say why); a known value's
+  // reason is not recorded (see TickContext.emit), so it is built only when a view asks.
   tick(ctx: TickContext): void {
     const trust = (id: string) => ctx.trust(id);
-    const baro = this.barometricAt(ctx);
+    const baroPa = this.barometricAt(ctx);
+    this.views = null;
+    this.ticked = true;
 
-    this.sourceViews = this.cfg.moistureSources.map((m) => {
-      const v = evaluateMoistureSource(m, trust, baro.pa);
-      ctx.emit(`moisture.${m.id}.h2oPctVol`, v.h2oPctVol, v.reason);
-      return v;
-    });
-    const sources = new Map(this.sourceViews.map((v) => [v.id, v]));
-
-    this.views = this.cfg.dewPoints.map((d) => {
-      const r = evaluateDewPoint(d, ctx.trust(d.gasTemperature), sources, d.gaugePressure ? ctx.trust(d.gaugePressure) : null, baro.pa);
-      const trend = this.trends.get(d.id)!.update(ctx.nowMs, r.marginK, r.reason);
-      const key = `dewpoint.${d.id}`;
-      ctx.emit(`${key}.dewPointC`, r.dewPointC, r.dewPointReason);
-      ctx.emit(`${key}.marginK`, r.marginK, r.reason);
-      ctx.emit(`${key}.marginTrendKPerMin`, trend.marginTrendKPerMin, trend.trendReason);
-      // Known trend, margin not shrinking: an endless time, so a rule on it clears (null would hold it).
-      const ttcS = trend.timeToCondensationS ?? (trend.marginTrendKPerMin !== null ? Number.POSITIVE_INFINITY : null);
-      ctx.emit(`${key}.timeToCondensationS`, ttcS, trend.timeToCondensationReason);
-      if (d.compareWith.length) {
-        ctx.emit(`${key}.h2oDisagreementPctVol`, r.h2oDisagreementPctVol, r.disagreementReason);
-        ctx.emit(`${key}.dewPointDisagreementK`, r.dewPointDisagreementK, r.disagreementReason);
-      }
-      return { ...r, ...trend, trendWindowS: d.trendWindowS };
-    });
-
-    this.acidViews = this.cfg.acidDewPoints.map((a) => {
-      const v = evaluateAcidDewPoint(a, sources, trust, baro.pa);
-      const key = `aciddewpoint.${a.id}`;
-      ctx.emit(`${key}.so3Ppm`, v.so3Ppm, v.acidDewPointReason);
-      ctx.emit(`${key}.acidDewPointC`, v.acidDewPointC, v.acidDewPointReason);
-      ctx.emit(`${key}.marginK`, v.marginK, v.reason);
-      return v;
-    });
-
-    const s = summarize(this.views, this.acidViews, baro);
-    if (this.cfg.dewPoints.length) {
-      const key = `dewpoint.${PLANT_WIDE_DEW_POINT_ID}`;
-      ctx.emit(`${key}.marginK`, s.status === "ok" ? s.lowestMarginK : null, s.reason);
-      const ttc = plantTimeToCondensation(this.views);
-      ctx.emit(`${key}.timeToCondensationS`, ttc.value, ttc.reason);
+    const ms = this.cfg.moistureSources;
+    this.sources = [];
+    for (let i = 0; i < ms.length; i++) {
+      const v = evaluateMoistureSource(ms[i]!, trust, baroPa, false);
+      ctx.emit(this.sourceKeys[i]!, v.h2oPctVol, v.reason);
+      this.sources.push(v);
+      this.sourceById.set(v.id, v);
     }
-    this.summary = [s];
+    const sources = this.sourceById;
+
+    for (const loc of this.locations) {
+      const d = loc.cfg;
+      const r = evaluateDewPoint(d, ctx.trust(d.gasTemperature), sources, d.gaugePressure ? ctx.trust(d.gaugePressure) : null, baroPa, false);
+      loc.reading = r;
+      const trend = loc.trend;
+      trend.step(ctx.nowMs, r.marginK, r.reason);
+      const k = loc.keys;
+      ctx.emit(k.dewPointC, r.dewPointC, r.dewPointReason);
+      ctx.emit(k.marginK, r.marginK, r.reason);
+      const trendKPerMin = trend.trendKPerMin;
+      const why = trendKPerMin === null ? trend.trendReason : "";
+      ctx.emit(k.trend, trendKPerMin, why);
+      // Known trend, margin not shrinking: an endless time, so a rule on it clears (null would hold it).
+      const ttcS = trend.timeToCondensationS ?? (trendKPerMin !== null ? Number.POSITIVE_INFINITY : null);
+      ctx.emit(k.ttc, ttcS, ttcS === Number.POSITIVE_INFINITY ? trend.timeToCondensationReason : why);
+      if (d.compareWith.length) {
+        ctx.emit(k.h2oDisagreement, r.h2oDisagreementPctVol, r.disagreementReason);
+        ctx.emit(k.dewPointDisagreement, r.dewPointDisagreementK, r.disagreementReason);
+      }
+    }
+
+    const as = this.cfg.acidDewPoints;
+    this.acid = [];
+    for (let i = 0; i < as.length; i++) {
+      const v = evaluateAcidDewPoint(as[i]!, sources, trust, baroPa, false);
+      const k = this.acidKeys[i]!;
+      ctx.emit(k.so3Ppm, v.so3Ppm, v.acidDewPointReason);
+      ctx.emit(k.acidDewPointC, v.acidDewPointC, v.acidDewPointReason);
+      ctx.emit(k.marginK, v.marginK, v.reason);
+      this.acid.push(v);
+    }
+
+    if (this.locations.length) {
+      const lowest = lowestMargin(this.locations);
+      ctx.emit(this.plantKeys.marginK, lowest, lowest === null ? this.summaryOf(this.locations.map(lightView), []).reason : "");
+      const ttc = plantTimeToCondensation(this.locations.map(lightView));
+      ctx.emit(this.plantKeys.ttc, ttc.value, ttc.reason);
+    }
   }
 
-  private barometricAt(ctx: TickContext): { pa: number; source: "measured" | "configured"; reason: string } {
+  /** The barometric pressure in use, Pa; the signal's trust is kept for the view. */
+  private barometricAt(ctx: TickContext): number {
+    if (!this.barometric.signal) {
+      this.baroTrust = null;
+      this.baroPa = this.barometric.fallbackPa;
+    } else {
+      const t = ctx.trust(this.barometric.signal);
+      this.baroTrust = t;
+      this.baroPa = t.ok && t.value !== null ? t.value : this.barometric.fallbackPa;
+    }
+    return this.baroPa;
+  }
+
+  private baro(): Baro {
     const configured = `configured ${(this.barometric.fallbackPa / 100).toFixed(1)} hPa`;
-    if (!this.barometric.signal) return { pa: this.barometric.fallbackPa, source: "configured", reason: configured };
-    const t = ctx.trust(this.barometric.signal);
-    if (t.ok && t.value !== null) return { pa: t.value, source: "measured", reason: `measured by ${this.barometric.signal}` };
-    return { pa: this.barometric.fallbackPa, source: "configured", reason: `${configured} (${t.reason})` };
+    const t = this.baroTrust;
+    if (t === null) return { pa: this.baroPa, source: "configured", reason: configured };
+    if (t.ok && t.value !== null) return { pa: this.baroPa, source: "measured", reason: `measured by ${this.barometric.signal}` };
+    return { pa: this.baroPa, source: "configured", reason: `${configured} (${t.reason})` };
+  }
+
+  /** The summary at the tick, for its reason only (its barometric part is left unfilled). */
+  private summaryOf(views: SummaryInput[], acid: AcidDewPointView[]): DewPointSummaryView {
+    return summarize(views, acid, { pa: this.baroPa, source: "configured", reason: "" });
   }
 
   view(): {
@@ -129,16 +194,62 @@ export class DewPointMonitor implements Monitor {
     dewPointSummary: DewPointSummaryView[];
     acidDewPoints: AcidDewPointView[];
   } {
-    return { moistureSources: this.sourceViews, dewPoints: this.views, dewPointSummary: this.summary, acidDewPoints: this.acidViews };
+    if (!this.ticked) return { moistureSources: [], dewPoints: [], dewPointSummary: [], acidDewPoints: [] };
+    if (this.views === null) {
+      const ms = this.cfg.moistureSources;
+      const moistureSources = this.sources.map((v, i) => (v.status === "ok" ? { ...v, reason: moistureSourceReason(ms[i]!, v) } : v));
+      const dewPoints = this.locations.map((loc): DewPointView => {
+        const r = loc.reading!;
+        const reading = r.status === "ok" ? { ...r, reason: dewPointReason(r) } : r;
+        return { ...reading, ...loc.trend.result, trendWindowS: loc.cfg.trendWindowS };
+      });
+      const as = this.cfg.acidDewPoints;
+      const acidDewPoints = this.acid.map((v, i) => (v.status === "ok" ? { ...v, reason: acidDewPointReason(as[i]!, v, this.sourceById.get(v.moistureSourceId)!.name) } : v));
+      this.views = { moistureSources, dewPoints, dewPointSummary: [summarize(dewPoints, acidDewPoints, this.baro())], acidDewPoints };
+    }
+    return this.views;
   }
 }
 
-function summarize(views: DewPointView[], acid: AcidDewPointView[], baro: { pa: number; source: "measured" | "configured"; reason: string }): DewPointSummaryView {
+/** The fields of a location's view the summary and the plant-wide time read. */
+type SummaryInput = Pick<DewPointView, "id" | "name" | "status" | "marginK" | "reason" | "marginTrendKPerMin" | "trendReason" | "timeToCondensationS">;
+
+/**
+ * A location's last tick as the summary reads it. Its reason is that of an unknown margin
+ * only (a known one's is never read), and trendReason that of an unknown trend only.
+ */
+function lightView(loc: Location): SummaryInput {
+  const r = loc.reading!;
+  const trendKPerMin = loc.trend.trendKPerMin;
+  return {
+    id: r.id,
+    name: r.name,
+    status: r.status,
+    marginK: r.marginK,
+    reason: r.reason,
+    marginTrendKPerMin: trendKPerMin,
+    trendReason: trendKPerMin === null ? loc.trend.trendReason : "",
+    timeToCondensationS: loc.trend.timeToCondensationS,
+  };
+}
+
+/** The lowest margin when every location's is known (the summary's status ok), else null. */
+function lowestMargin(locations: Location[]): number | null {
+  let lowest: number | null = null;
+  for (const loc of locations) {
+    const r = loc.reading!;
+    if (r.status !== "ok" || r.marginK === null) return null;
+    if (lowest === null || r.marginK < lowest) lowest = r.marginK;
+  }
+  return lowest;
+}
+
+function summarize(views: SummaryInput[], acid: AcidDewPointView[], baro: Baro): DewPointSummaryView {
   const known = views.filter((v) => v.status === "ok" && v.marginK !== null);
   const unknownLocations = views.filter((v) => !known.includes(v)).map((v) => ({ id: v.id, reason: v.reason }));
-  const lowest = known.reduce<DewPointView | null>((a, v) => (a === null || v.marginK! < a.marginK! ? v : a), null);
+  const lowest = known.reduce<SummaryInput | null>((a, v) => (a === null || v.marginK! < a.marginK! ? v : a), null);
   const shrinking = views.filter((v) => v.timeToCondensationS !== null);
-  const soonest = shrinking.reduce<DewPointView | null>((a, v) => (a === null || v.timeToCondensationS! < a.timeToCondensationS! ? v : a), null);
+  const soonest = shrinking.reduce<SummaryInput | null>((a, v) => (a === null || v.timeToCondensationS! < a.timeToCondensationS! ? v : a), null);
   const acidKnown = acid.filter((a) => a.marginK !== null);
   const acidLowest = acidKnown.reduce<AcidDewPointView | null>((a, v) => (a === null || v.marginK! < a.marginK! ? v : a), null);
   const status = views.length === 0 || known.length === 0 ? "unknown" : known.length === views.length ? "ok" : "partial";
@@ -173,7 +284,7 @@ function summarize(views: DewPointView[], acid: AcidDewPointView[], baro: { pa: 
 }
 
 /** The shortest predicted time to condensation, known only when every location's trend is known. */
-function plantTimeToCondensation(views: DewPointView[]): { value: number | null; reason: string } {
+function plantTimeToCondensation(views: SummaryInput[]): { value: number | null; reason: string } {
   const noTrend = views.find((v) => v.marginTrendKPerMin === null);
   if (noTrend) return { value: null, reason: `${noTrend.id}: ${noTrend.trendReason}` };
   const shrinking = views.filter((v) => v.timeToCondensationS !== null);

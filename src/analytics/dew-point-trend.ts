@@ -27,6 +27,15 @@ export class MarginTrend {
   /** Ticks further apart than this break the window (replay across missing data, a restart). */
   readonly maxGapS: number;
   private restartReason = "no margin yet";
+  // What the last update found, as plain values: the reasons are built when asked for.
+  private kind: "unknown" | "filling" | "no-spread" | "ok" = "unknown";
+  private whyUnknown = "";
+  private marginK = 0;
+  private spanS = 0;
+  private count = 0;
+  private slopePerS = 0;
+  private sinceRestart = "";
+  private last: MarginTrendResult | null = null;
 
   constructor(
     readonly windowS: number,
@@ -39,12 +48,20 @@ export class MarginTrend {
 
   /** Add the margin at `nowMs` (null when unknown, with `whyUnknown`) and read the trend. */
   update(nowMs: number, marginK: number | null, whyUnknown: string): MarginTrendResult {
+    this.step(nowMs, marginK, whyUnknown);
+    return this.result;
+  }
+
+  /** As update(), without building the result: read it from the getters. */
+  step(nowMs: number, marginK: number | null, whyUnknown: string): void {
+    this.last = null;
     const tS = nowMs / 1000;
     if (marginK === null) {
       this.fit.clear();
       this.restartReason = "the margin was unknown";
-      const why = `margin unknown: ${whyUnknown}`;
-      return { marginTrendKPerMin: null, trendReason: why, timeToCondensationS: null, timeToCondensationReason: why };
+      this.kind = "unknown";
+      this.whyUnknown = whyUnknown;
+      return;
     }
     const newest = this.fit.newestS;
     if (newest !== null && tS - newest > this.maxGapS) {
@@ -53,24 +70,62 @@ export class MarginTrend {
     }
     // A second tick at the same time adds nothing (the fit needs increasing times).
     if (newest === null || tS > newest) this.fit.push(tS, marginK);
-    const span = this.fit.spanS;
-    if (span < this.minSpanS) {
-      const why = `trend needs ${Math.round(this.minSpanS)} s of known margin after ${this.restartReason}; has ${Math.round(span)} s`;
-      return { marginTrendKPerMin: null, trendReason: why, timeToCondensationS: null, timeToCondensationReason: why };
+    this.marginK = marginK;
+    this.spanS = this.fit.spanS;
+    this.count = this.fit.count;
+    if (this.spanS < this.minSpanS) {
+      this.kind = "filling";
+      this.sinceRestart = this.restartReason;
+      return;
     }
     const slope = this.fit.slopePerS();
     if (slope === null) {
-      const why = "no spread in time";
-      return { marginTrendKPerMin: null, trendReason: why, timeToCondensationS: null, timeToCondensationReason: why };
+      this.kind = "no-spread";
+      return;
     }
-    const trendReason = `least squares over ${Math.round(span)} s (window ${this.windowS} s, ${this.fit.count} points)`;
-    const ttc = timeToCondensationS(marginK, slope);
-    return {
-      marginTrendKPerMin: slope * 60,
-      trendReason,
-      timeToCondensationS: ttc,
-      timeToCondensationReason:
-        ttc === null ? `margin not shrinking (${(slope * 60).toFixed(3)} K/min)` : marginK <= 0 ? "at or below the dew point now" : `margin / -trend at ${(slope * 60).toFixed(3)} K/min`,
+    this.kind = "ok";
+    this.slopePerS = slope;
+  }
+
+  /** The trend of the last update, K/min; null when unknown. */
+  get trendKPerMin(): number | null {
+    return this.kind === "ok" ? this.slopePerS * 60 : null;
+  }
+
+  /** Seconds to condensation at the last update's trend; null when unknown or the margin holds or grows. */
+  get timeToCondensationS(): number | null {
+    return this.kind === "ok" ? timeToCondensationS(this.marginK, this.slopePerS) : null;
+  }
+
+  /** Why the trend is unknown, or how it was taken. */
+  get trendReason(): string {
+    switch (this.kind) {
+      case "unknown":
+        return `margin unknown: ${this.whyUnknown}`;
+      case "filling":
+        return `trend needs ${Math.round(this.minSpanS)} s of known margin after ${this.sinceRestart}; has ${Math.round(this.spanS)} s`;
+      case "no-spread":
+        return "no spread in time";
+      case "ok":
+        return `least squares over ${Math.round(this.spanS)} s (window ${this.windowS} s, ${this.count} points)`;
+    }
+  }
+
+  get timeToCondensationReason(): string {
+    if (this.kind !== "ok") return this.trendReason;
+    const slope = this.slopePerS;
+    const ttc = timeToCondensationS(this.marginK, slope);
+    return ttc === null ? `margin not shrinking (${(slope * 60).toFixed(3)} K/min)` : this.marginK <= 0 ? "at or below the dew point now" : `margin / -trend at ${(slope * 60).toFixed(3)} K/min`;
+  }
+
+  /** The last update's full result (built when asked for). */
+  get result(): MarginTrendResult {
+    this.last ??= {
+      marginTrendKPerMin: this.trendKPerMin,
+      trendReason: this.trendReason,
+      timeToCondensationS: this.timeToCondensationS,
+      timeToCondensationReason: this.timeToCondensationReason,
     };
+    return this.last;
   }
 }

@@ -100,7 +100,7 @@ export class InertingEstimator {
    * Compare the O2 (on the analysers' basis, already voted) with every limit. Unknown,
    * never safe, when the O2 or an H2O needed for a conversion cannot be trusted.
    */
-  evaluate(o2: Trust, h2o: Trust | null): InertingEvaluation {
+  evaluate(o2: Trust, h2o: Trust | null, describe = true): InertingEvaluation {
     const needsH2o = this.limits.some((l) => l.basis !== this.o2Basis);
     const h2oValue = needsH2o && h2o && h2o.ok ? h2o.value : null;
     const unknown = (reason: string): InertingEvaluation => ({ ok: false, state: "unknown", h2oPctVol: h2oValue, reason });
@@ -123,13 +123,21 @@ export class InertingEstimator {
     }
     const governing = comparisons.reduce((a, b) => (b.marginPctPt < a.marginPctPt ? b : a));
     const state = stateFromMargin(governing.marginPctPt, this.oxygen.marginalBandPctPt);
-    const g = governing;
-    const reason =
-      state === "not-inert"
-        ? `O2 ${fmt(g.o2PctVol)} % ${g.limit.basis} is above the limit ${fmt(g.limit.pctVol)} % (${g.limit.id})`
-        : `O2 ${fmt(g.o2PctVol)} % ${g.limit.basis}, ${fmt(g.marginPctPt)} %-pt below the limit ${fmt(g.limit.pctVol)} % (${g.limit.id})` +
-          (state === "marginal" ? `, within the marginal band of ${fmt(this.oxygen.marginalBandPctPt)} %-pt` : "");
-    return { ok: true, state, comparisons, governing, h2oPctVol: h2oValue, reason };
+    const ev: InertingEvaluation = { ok: true, state, comparisons, governing, h2oPctVol: h2oValue, reason: "" };
+    if (describe) ev.reason = this.describe(ev);
+    return ev;
+  }
+
+  /**
+   * The reason evaluate() gives with a known O2 (with `describe` false it leaves it empty: the
+   * text is built only when someone looks).
+   */
+  describe(ev: Extract<InertingEvaluation, { ok: true }>): string {
+    const g = ev.governing;
+    return ev.state === "not-inert"
+      ? `O2 ${fmt(g.o2PctVol)} % ${g.limit.basis} is above the limit ${fmt(g.limit.pctVol)} % (${g.limit.id})`
+      : `O2 ${fmt(g.o2PctVol)} % ${g.limit.basis}, ${fmt(g.marginPctPt)} %-pt below the limit ${fmt(g.limit.pctVol)} % (${g.limit.id})` +
+          (ev.state === "marginal" ? `, within the marginal band of ${fmt(this.oxygen.marginalBandPctPt)} %-pt` : "");
   }
 }
 

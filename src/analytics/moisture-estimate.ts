@@ -59,7 +59,12 @@ function readMassMoisturePct(m: MassMoistureConfig, trust: TrustOf, reasons: str
 
 const fmt = (v: number, digits = 1) => v.toFixed(digits);
 
-export function evaluateMoistureSource(cfg: MoistureSourceConfig, trust: TrustOf, barometricPa: number): MoistureSourceView {
+/**
+ * The source's water content now. `describe` false leaves the reason of a known value empty
+ * (moistureSourceReason gives it from the view): the monitor builds that text only when
+ * someone looks. The reason of an unknown value is always given.
+ */
+export function evaluateMoistureSource(cfg: MoistureSourceConfig, trust: TrustOf, barometricPa: number, describe = true): MoistureSourceView {
   const view: MoistureSourceView = {
     id: cfg.id,
     name: cfg.name,
@@ -85,7 +90,8 @@ export function evaluateMoistureSource(cfg: MoistureSourceConfig, trust: TrustOf
       case "analyser": {
         const x = readSignal(cfg.signal, trust, reasons);
         if (x === null) return unknown(reasons.join("; "));
-        return { ...view, h2oPctVol: x, status: "ok", reason: `H2O analyser ${cfg.signal}` };
+        const known: MoistureSourceView = { ...view, h2oPctVol: x, status: "ok" };
+        return describe ? { ...known, reason: moistureSourceReason(cfg, known) } : known;
       }
       case "humidity": {
         view.relativeHumidityPct = readSignal(cfg.relativeHumidity, trust, reasons);
@@ -94,12 +100,8 @@ export function evaluateMoistureSource(cfg: MoistureSourceConfig, trust: TrustOf
         if (gauge !== null) view.sensorAbsPressurePa = absolutePressurePa(barometricPa, gauge);
         if (reasons.length) return unknown(reasons.join("; "));
         const x = h2oPctVolFromRelativeHumidity(view.relativeHumidityPct!, view.sensorTempC!, view.sensorAbsPressurePa!);
-        return {
-          ...view,
-          h2oPctVol: x,
-          status: "ok",
-          reason: `humidity sensor: ${fmt(view.relativeHumidityPct!)} % RH at ${fmt(view.sensorTempC!)} °C and ${fmt(view.sensorAbsPressurePa! / 100)} hPa absolute (IAPWS-IF97 saturation pressure)`,
-        };
+        const known: MoistureSourceView = { ...view, h2oPctVol: x, status: "ok" };
+        return describe ? { ...known, reason: moistureSourceReason(cfg, known) } : known;
       }
       case "mass-balance": {
         const feed = readSignal(cfg.coalFeed, trust, reasons);
@@ -117,18 +119,27 @@ export function evaluateMoistureSource(cfg: MoistureSourceConfig, trust: TrustOf
           cfg.gasFlowNm3PerH.measuredAt === "mill-outlet"
             ? h2oPctVolFromOutletFlowMassBalance({ outletFlowNm3PerHWet: view.gasFlowNm3PerH!, incomingH2oPctVol: view.incomingH2oPctVol!, evaporatedWaterKgPerH: evaporated })
             : h2oPctVolFromMassBalance({ gasFlowNm3PerHWet: view.gasFlowNm3PerH!, gasH2oPctVol: view.incomingH2oPctVol!, evaporatedWaterKgPerH: evaporated });
-        return {
-          ...view,
-          h2oPctVol: x,
-          status: "ok",
-          reason:
-            `mass balance: ${fmt(evaporated / 1000, 2)} t/h of water from ${fmt(view.coalFeedTPerH!)} t/h of coal ` +
-            `(${fmt(view.rawMoisturePctMass!)} % -> ${fmt(view.productMoisturePctMass!)} %) into ${fmt(view.gasFlowNm3PerH!, 0)} Nm³/h ` +
-            `(${cfg.gasFlowNm3PerH.measuredAt}) at ${fmt(view.incomingH2oPctVol!)} % H2O`,
-        };
+        const known: MoistureSourceView = { ...view, h2oPctVol: x, status: "ok" };
+        return describe ? { ...known, reason: moistureSourceReason(cfg, known) } : known;
       }
     }
   } catch (e) {
     return unknown((e as Error).message);
+  }
+}
+
+/** How a known water content was obtained, from its view (evaluateMoistureSource's reason when known). */
+export function moistureSourceReason(cfg: MoistureSourceConfig, v: MoistureSourceView): string {
+  switch (cfg.kind) {
+    case "analyser":
+      return `H2O analyser ${cfg.signal}`;
+    case "humidity":
+      return `humidity sensor: ${fmt(v.relativeHumidityPct!)} % RH at ${fmt(v.sensorTempC!)} °C and ${fmt(v.sensorAbsPressurePa! / 100)} hPa absolute (IAPWS-IF97 saturation pressure)`;
+    case "mass-balance":
+      return (
+        `mass balance: ${fmt(v.evaporatedWaterKgPerH! / 1000, 2)} t/h of water from ${fmt(v.coalFeedTPerH!)} t/h of coal ` +
+        `(${fmt(v.rawMoisturePctMass!)} % -> ${fmt(v.productMoisturePctMass!)} %) into ${fmt(v.gasFlowNm3PerH!, 0)} Nm³/h ` +
+        `(${cfg.gasFlowNm3PerH.measuredAt}) at ${fmt(v.incomingH2oPctVol!)} % H2O`
+      );
   }
 }

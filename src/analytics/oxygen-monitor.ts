@@ -6,7 +6,7 @@ import type { SignalConfig, UnitConfig } from "../config/schema.js";
 import { o2SignalIds } from "../config/sections/oxygen.js";
 import type { Monitor, TickContext } from "../core/calculator.js";
 import type { Sample } from "../core/types.js";
-import { UnitOxygen, type InertingView } from "./unit-oxygen.js";
+import { UnitOxygen, type InertingView, type O2ReadingInput } from "./unit-oxygen.js";
 
 export type { InertingView, O2LimitView, O2ReadingView, O2VoteView, PurgeProgressView } from "./unit-oxygen.js";
 
@@ -17,11 +17,20 @@ export interface UnitView {
   inerting: InertingView | null;
 }
 
+/** A unit with oxygen, its derived keys and the inputs handed to it at each tick (reused). */
+interface Tracked {
+  unit: UnitOxygen;
+  keys: { o2PctVol: string; marginPctPt: string; trend: string; timeToLimitS: string; purge: string };
+  inputs: (O2ReadingInput & { latest: { ms: number } })[];
+}
+
 export class OxygenMonitor implements Monitor {
-  private readonly perUnit: UnitOxygen[] = [];
-  /** Source time of the latest accepted sample of each O2 signal (the trend runs on it). */
-  private readonly sourceTimeMs = new Map<string, number>();
-  private views: UnitView[] = [];
+  private readonly perUnit: Tracked[] = [];
+  /** Source time of the latest accepted sample of each O2 signal (the trend runs on it); NaN before any. */
+  private readonly sourceTimeMs = new Map<string, { ms: number }>();
+  private ticked = false;
+  /** Views of the last tick, built on the first view() after it. */
+  private views: UnitView[] | null = null;
 
   constructor(
     private readonly units: UnitConfig[],
@@ -34,41 +43,65 @@ export class OxygenMonitor implements Monitor {
       const ids = o2SignalIds(u.oxygen);
       const basis = basisOf.get(ids[0] ?? "");
       if (!basis) throw new RangeError(`OxygenMonitor: O2 signal "${ids[0] ?? ""}" of unit "${u.id}" declares no basis (wet or dry)`);
-      this.perUnit.push(new UnitOxygen(u.id, u.oxygen, basis));
-      for (const sid of ids) this.sourceTimeMs.set(sid, Number.NaN);
+      for (const sid of ids) if (!this.sourceTimeMs.has(sid)) this.sourceTimeMs.set(sid, { ms: Number.NaN });
+      const k = `o2.${u.id}`;
+      this.perUnit.push({
+        unit: new UnitOxygen(u.id, u.oxygen, basis),
+        keys: { o2PctVol: `${k}.o2PctVol`, marginPctPt: `${k}.marginPctPt`, trend: `${k}.trendPctPtPerMin`, timeToLimitS: `${k}.timeToLimitS`, purge: `${k}.purgeVolumeChanges` },
+        inputs: ids.map((id) => ({ id, trust: { ok: false, value: null, reason: "" }, sourceTimeMs: null, latest: this.sourceTimeMs.get(id)! })),
+      });
     }
   }
 
   ingest(s: Sample): void {
-    if (this.sourceTimeMs.has(s.signal)) this.sourceTimeMs.set(s.signal, s.sourceTimeMs);
+    const latest = this.sourceTimeMs.get(s.signal);
+    if (latest) latest.ms = s.sourceTimeMs;
   }
 
+  // Reasons are passed for unknown values and for endless times (they say why); a known value's
+  // reason is not recorded (see TickContext.emit), so it is built only when a view asks.
   tick(ctx: TickContext): void {
-    const byUnit = new Map<string, InertingView>();
-    for (const u of this.perUnit) {
+    this.ticked = true;
+    this.views = null;
+    for (const { unit: u, keys, inputs } of this.perUnit) {
       const o = u.oxygen;
-      const r = u.evaluate({
+      for (const x of inputs) {
+        x.trust = ctx.trust(x.id);
+        x.sourceTimeMs = Number.isNaN(x.latest.ms) ? null : x.latest.ms;
+      }
+      u.step({
         nowMs: ctx.nowMs,
-        o2: u.signalIds.map((id) => {
-          const t = this.sourceTimeMs.get(id);
-          return { id, trust: ctx.trust(id), sourceTimeMs: t === undefined || Number.isNaN(t) ? null : t };
-        }),
+        o2: inputs,
         h2o: o.h2oSignal ? ctx.trust(o.h2oSignal) : null,
         inertFlow: o.purge ? ctx.trust(o.purge.inertFlowSignal) : null,
       });
-      for (const d of r.derived) ctx.emit(`o2.${u.unitId}.${d.key}`, d.value, d.reason);
-      byUnit.set(u.unitId, r.view);
+      const o2PctVol = u.o2PctVol;
+      ctx.emit(keys.o2PctVol, o2PctVol, o2PctVol === null ? u.o2Reason : "");
+      ctx.emit(keys.marginPctPt, u.marginPctPt, o2PctVol === null ? u.o2Reason : "");
+      const trend = u.trendPctPtPerMin;
+      ctx.emit(keys.trend, trend, trend === null ? u.trendReason : "");
+      const timeS = u.timeToLimitValue;
+      ctx.emit(keys.timeToLimitS, timeS, timeS === null || timeS === Number.POSITIVE_INFINITY ? u.trendReason : "");
+      if (u.purge) {
+        const v = u.purge.volumeChanges();
+        ctx.emit(keys.purge, v.value, v.reason);
+      }
     }
-    this.views = this.units.map((u) => ({ id: u.id, name: u.name, kind: u.kind, inerting: byUnit.get(u.id) ?? null }));
   }
 
   view(): { units: UnitView[] } {
+    if (!this.ticked) return { units: [] };
+    if (this.views === null) {
+      const byUnit = new Map(this.perUnit.map((t) => [t.unit.unitId, t.unit]));
+      this.views = this.units.map((u) => ({ id: u.id, name: u.name, kind: u.kind, inerting: byUnit.get(u.id)?.view() ?? null }));
+    }
     return { units: this.views };
   }
 
   /** The unit's inerting state as of the last tick; null when the unit has no oxygen section. */
   inertingStateOf(unitId: string): InertingView["state"] | null {
-    for (const v of this.views) if (v.id === unitId) return v.inerting?.state ?? null;
+    if (!this.ticked) return null;
+    for (const t of this.perUnit) if (t.unit.unitId === unitId) return t.unit.state;
     return null;
   }
 }

@@ -17,6 +17,10 @@ export class O2Trend {
   private readonly fit: RollingLinearFit;
   private lastTimeMs: number | null = null;
   private seriesKey: string | null = null;
+  // What the last read() saw, for its reason.
+  private readKind: "filling" | "no-spread" | "ok" = "filling";
+  private readCount = 0;
+  private readSpanS = 0;
 
   constructor(
     readonly windowS: number,
@@ -51,13 +55,27 @@ export class O2Trend {
 
   /** Percentage points per minute, or null with the reason. */
   trend(): { pctPtPerMin: number | null; reason: string } {
-    const need = this.windowS / 2;
-    if (this.fit.count < MIN_POINTS || this.fit.spanS < need) {
-      return { pctPtPerMin: null, reason: `O2 trend needs ${fmtS(need)} s of trusted O2 without a break; has ${fmtS(this.fit.spanS)} s` };
+    const pctPtPerMin = this.read();
+    return { pctPtPerMin, reason: this.readReason };
+  }
+
+  /** As trend() without its reason, which readReason gives until the next read (built only when asked for). */
+  read(): number | null {
+    this.readCount = this.fit.count;
+    this.readSpanS = this.fit.spanS;
+    if (this.readCount < MIN_POINTS || this.readSpanS < this.windowS / 2) {
+      this.readKind = "filling";
+      return null;
     }
     const slope = this.fit.slopePerS();
-    if (slope === null) return { pctPtPerMin: null, reason: "O2 trend: no time spread in the points" };
-    return { pctPtPerMin: slope * 60, reason: `least squares over ${fmtS(this.fit.spanS)} s (${this.fit.count} points)` };
+    this.readKind = slope === null ? "no-spread" : "ok";
+    return slope === null ? null : slope * 60;
+  }
+
+  get readReason(): string {
+    if (this.readKind === "filling") return `O2 trend needs ${fmtS(this.windowS / 2)} s of trusted O2 without a break; has ${fmtS(this.readSpanS)} s`;
+    if (this.readKind === "no-spread") return "O2 trend: no time spread in the points";
+    return `least squares over ${fmtS(this.readSpanS)} s (${this.readCount} points)`;
   }
 }
 

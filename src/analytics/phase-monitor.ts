@@ -30,6 +30,11 @@ interface Tracked {
   unitId: string;
   cfg: PhaseSectionConfig;
   tracker: PhaseTracker;
+  /** The phase as of the last tick; null before the first. */
+  phase: MillPhase | null;
+  /** Why inputs were not trusted at the last tick (the view appends them to the tracker's reason). */
+  untrusted: string[];
+  /** The view of the last tick, built when first asked for. */
   view: PhaseView | null;
 }
 
@@ -54,6 +59,8 @@ export class PhaseMonitor implements Monitor {
           runEmptyS: p.runEmptyS,
           initialCoalInside: p.initialCoalInside,
         }),
+        phase: null,
+        untrusted: [],
         view: null,
       };
       this.units.push(t);
@@ -78,7 +85,8 @@ export class PhaseMonitor implements Monitor {
       const num = (tr: Trust | null): number | null => (tr?.ok ? tr.value : null);
       // State inputs: non-zero = on. Untrusted = null: the tracker then decides from the drive and feed.
       const flag = (tr: Trust | null): boolean | null => (tr === null ? null : tr.ok && tr.value !== null ? tr.value !== 0 : null);
-      const r = t.tracker.update({
+      // The tracker keeps its input object for the reason and inputs it builds when asked: a new one each tick.
+      t.phase = t.tracker.step({
         nowMs,
         drivePowerKW: num(read(p.drivePower)),
         feedTPerH: num(read(p.feed)),
@@ -88,8 +96,8 @@ export class PhaseMonitor implements Monitor {
         trip: flag(read(p.trip)),
         maintenance: flag(read(p.maintenance)),
       });
-      const reason = untrusted.length ? `${r.reason}; not trusted: ${untrusted.join("; ")}` : r.reason;
-      t.view = { id: t.unitId, unitId: t.unitId, phase: r.phase, sinceMs: r.sinceMs, reason, inputs: r.inputs };
+      t.untrusted = untrusted;
+      t.view = null;
     }
   }
 
@@ -97,10 +105,16 @@ export class PhaseMonitor implements Monitor {
   phaseOf(unitId: string): MillPhase | null {
     const t = this.byUnit.get(unitId);
     if (!t) return null;
-    return t.view?.phase ?? "unknown";
+    return t.phase ?? "unknown";
   }
 
   view(): { phases: PhaseView[] } {
-    return { phases: this.units.flatMap((t) => (t.view ? [t.view] : [])) };
+    return { phases: this.units.flatMap((t) => (t.phase === null ? [] : [(t.view ??= viewOf(t))])) };
   }
+}
+
+function viewOf(t: Tracked): PhaseView {
+  const r = t.tracker.result;
+  const reason = t.untrusted.length ? `${r.reason}; not trusted: ${t.untrusted.join("; ")}` : r.reason;
+  return { id: t.unitId, unitId: t.unitId, phase: r.phase, sinceMs: r.sinceMs, reason, inputs: r.inputs };
 }

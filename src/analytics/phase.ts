@@ -134,6 +134,24 @@ export class PhaseTracker {
   private phase: MillPhase = "unknown";
   private sinceMs: number | null = null;
   private lastNowMs: number | null = null;
+  /** What the last step decided, as plain values (its result is built from them when read). */
+  private readonly last = {
+    inp: null as PhaseInputs | null,
+    why: "drive-unknown" as ReasonKind,
+    phase: "unknown" as MillPhase,
+    sinceMs: 0,
+    ranEmptyS: 0,
+    fedThisRun: false,
+    coalInside: false,
+    coalWhy: "",
+    gasInert: false,
+    gasHot: false,
+    driveRunning: null as boolean | null,
+    feedOn: null as boolean | null,
+    hotGas: null as boolean | null,
+    inertOn: null as boolean | null,
+  };
+  private lastResult: PhaseResult | null = null;
 
   constructor(cfg: PhaseConfig) {
     const fn = "PhaseTracker";
@@ -160,12 +178,21 @@ export class PhaseTracker {
   }
 
   update(inp: PhaseInputs): PhaseResult {
+    this.step(inp);
+    return this.result;
+  }
+
+  /**
+   * As update(), returning only the phase: the reason and the inputs are kept as plain values
+   * and built when `result` is read (the phase monitor runs this at every tick).
+   */
+  step(inp: PhaseInputs): MillPhase {
     const fn = "PhaseTracker.update";
     checkFinite(fn, "nowMs", inp.nowMs, "epoch ms");
     if (this.lastNowMs !== null && inp.nowMs < this.lastNowMs) {
       throw new RangeError(`${fn}: nowMs must not decrease; got ${inp.nowMs} after ${this.lastNowMs}`);
     }
-    for (const k of ["drivePowerKW", "feedTPerH", "millOutletTempC", "millInletTempC", "inertFlowNm3PerH"] as const) {
+    for (const k of NUMERIC_INPUTS) {
       const v = inp[k];
       if (v !== null) checkFinite(fn, k, v);
     }
@@ -191,17 +218,12 @@ export class PhaseTracker {
     else if (H === true && hotBefore !== true) this.warmUp = true;
 
     let phase: MillPhase;
-    let reason: string;
-    const gasNotes = (): string => {
-      const notes: string[] = [];
-      if (I === true && inertRaw !== null) notes.push("inert gas flowing");
-      if (H === true && hotRaw !== null) notes.push("hot gas at the inlet");
-      return notes.length ? ` (${notes.join(", ")})` : "";
-    };
+    let why: ReasonKind;
+    let ranEmptyS = 0;
 
     if (inp.maintenance === true) {
       phase = "maintenance";
-      reason = "maintenance declared";
+      why = "maintenance";
       if (this.coalInside) {
         this.coalInside = false;
         this.coalWhy = "cleared by maintenance";
@@ -219,15 +241,15 @@ export class PhaseTracker {
       this.noFeedSinceMs = null;
       this.warmUp = false;
       phase = this.coalInside ? "standstill-loaded" : "standstill-empty";
-      reason = `trip signal active; ${this.coalInside ? "coal inside" : "mill empty"} (${this.coalWhy})`;
+      why = "trip";
     } else if (driveRaw === null || D === null) {
       phase = "unknown";
-      reason = "drive power unknown";
+      why = "drive-unknown";
       this.noFeedSinceMs = null; // running empty cannot be proven without the drive
     } else if (D) {
       if (feedRaw === null || F === null) {
         phase = "unknown";
-        reason = "drive running, feed unknown";
+        why = "feed-unknown";
         this.noFeedSinceMs = null;
       } else if (F) {
         this.coalInside = true;
@@ -235,18 +257,16 @@ export class PhaseTracker {
         this.fedThisRun = true;
         this.noFeedSinceMs = null;
         phase = "grinding";
-        reason = `drive running (${fmt(inp.drivePowerKW!)} kW >= ${c.drivePowerRunningKW} kW) and feed on (${fmt(inp.feedTPerH!)} t/h >= ${c.feedOnTPerH} t/h)`;
+        why = "grinding";
       } else {
         this.noFeedSinceMs ??= now;
-        const ranEmptyS = (now - this.noFeedSinceMs) / 1000;
+        ranEmptyS = (now - this.noFeedSinceMs) / 1000;
         if (this.coalInside && ranEmptyS >= c.runEmptyS) {
           this.coalInside = false;
           this.coalWhy = `ran empty: drive ran ${fmt(ranEmptyS)} s without feed`;
         }
         phase = this.fedThisRun ? "stopping" : "starting";
-        reason =
-          (this.fedThisRun ? "feed stopped while the drive runs" : "drive running, no feed yet") +
-          (this.coalInside ? `; running without feed for ${fmt(ranEmptyS)} s of ${c.runEmptyS} s to run empty` : "; mill run empty");
+        why = "running-empty";
       }
     } else {
       // drive stopped
@@ -259,22 +279,22 @@ export class PhaseTracker {
       }
       if (this.coalInside) {
         phase = "standstill-loaded";
-        reason = `drive stopped, coal inside (${this.coalWhy})${gasNotes()}`;
+        why = "stopped-loaded";
       } else if (inertConfigured && (inertRaw === null || I === null)) {
         phase = "unknown";
-        reason = "drive stopped, inert-gas flow unknown";
+        why = "inert-unknown";
       } else if (I === true) {
         phase = "inerting";
-        reason = `drive stopped, inert-gas flow ${fmt(inp.inertFlowNm3PerH!)} Nm³/h >= ${c.inertFlowOnNm3PerH} Nm³/h`;
+        why = "inerting";
       } else if (hotRaw === null || H === null) {
         phase = "unknown";
-        reason = "drive stopped, mill inlet temperature unknown";
+        why = "hot-unknown";
       } else if (this.warmUp) {
         phase = "warm-up";
-        reason = `drive stopped, hot gas arriving: inlet ${fmt(inp.millInletTempC!)} °C rose above ${c.warmGasC} °C`;
+        why = "warm-up";
       } else {
         phase = "standstill-empty";
-        reason = `drive stopped, mill empty (${this.coalWhy})`;
+        why = "stopped-empty";
       }
     }
 
@@ -282,27 +302,109 @@ export class PhaseTracker {
       this.phase = phase;
       this.sinceMs = now;
     }
-    return {
-      phase,
-      sinceMs: this.sinceMs,
-      reason,
-      inputs: {
-        drivePowerKW: inp.drivePowerKW,
-        feedTPerH: inp.feedTPerH,
-        millInletTempC: inp.millInletTempC,
-        millOutletTempC: inp.millOutletTempC,
-        inertFlowNm3PerH: inp.inertFlowNm3PerH,
-        trip: inp.trip ?? null,
-        maintenance: inp.maintenance ?? null,
-        driveRunning: this.drive.value,
-        feedOn: this.feed.value,
-        hotGas: this.hot.value,
-        inertOn: inertConfigured ? this.inert.value : null,
-        coalInside: this.coalInside,
-      },
-    };
+    const l = this.last;
+    l.inp = inp;
+    l.why = why;
+    l.phase = phase;
+    l.sinceMs = this.sinceMs;
+    l.ranEmptyS = ranEmptyS;
+    l.fedThisRun = this.fedThisRun;
+    l.coalInside = this.coalInside;
+    l.coalWhy = this.coalWhy;
+    l.gasInert = I === true && inertRaw !== null;
+    l.gasHot = H === true && hotRaw !== null;
+    l.driveRunning = this.drive.value;
+    l.feedOn = this.feed.value;
+    l.hotGas = this.hot.value;
+    l.inertOn = inertConfigured ? this.inert.value : null;
+    this.lastResult = null;
+    return phase;
+  }
+
+  /** The result of the last update or step (built when first read after it). */
+  get result(): PhaseResult {
+    const l = this.last;
+    if (this.lastResult === null) {
+      const inp = l.inp!;
+      this.lastResult = {
+        phase: l.phase,
+        sinceMs: l.sinceMs,
+        reason: this.reasonText(),
+        inputs: {
+          drivePowerKW: inp.drivePowerKW,
+          feedTPerH: inp.feedTPerH,
+          millInletTempC: inp.millInletTempC,
+          millOutletTempC: inp.millOutletTempC,
+          inertFlowNm3PerH: inp.inertFlowNm3PerH,
+          trip: inp.trip ?? null,
+          maintenance: inp.maintenance ?? null,
+          driveRunning: l.driveRunning,
+          feedOn: l.feedOn,
+          hotGas: l.hotGas,
+          inertOn: l.inertOn,
+          coalInside: l.coalInside,
+        },
+      };
+    }
+    return this.lastResult;
+  }
+
+  private reasonText(): string {
+    const l = this.last;
+    const inp = l.inp!;
+    const c = this.cfg;
+    switch (l.why) {
+      case "maintenance":
+        return "maintenance declared";
+      case "trip":
+        return `trip signal active; ${l.coalInside ? "coal inside" : "mill empty"} (${l.coalWhy})`;
+      case "drive-unknown":
+        return "drive power unknown";
+      case "feed-unknown":
+        return "drive running, feed unknown";
+      case "grinding":
+        return `drive running (${fmt(inp.drivePowerKW!)} kW >= ${c.drivePowerRunningKW} kW) and feed on (${fmt(inp.feedTPerH!)} t/h >= ${c.feedOnTPerH} t/h)`;
+      case "running-empty":
+        return (
+          (l.fedThisRun ? "feed stopped while the drive runs" : "drive running, no feed yet") +
+          (l.coalInside ? `; running without feed for ${fmt(l.ranEmptyS)} s of ${c.runEmptyS} s to run empty` : "; mill run empty")
+        );
+      case "stopped-loaded": {
+        const notes: string[] = [];
+        if (l.gasInert) notes.push("inert gas flowing");
+        if (l.gasHot) notes.push("hot gas at the inlet");
+        return `drive stopped, coal inside (${l.coalWhy})${notes.length ? ` (${notes.join(", ")})` : ""}`;
+      }
+      case "inert-unknown":
+        return "drive stopped, inert-gas flow unknown";
+      case "inerting":
+        return `drive stopped, inert-gas flow ${fmt(inp.inertFlowNm3PerH!)} Nm³/h >= ${c.inertFlowOnNm3PerH} Nm³/h`;
+      case "hot-unknown":
+        return "drive stopped, mill inlet temperature unknown";
+      case "warm-up":
+        return `drive stopped, hot gas arriving: inlet ${fmt(inp.millInletTempC!)} °C rose above ${c.warmGasC} °C`;
+      case "stopped-empty":
+        return `drive stopped, mill empty (${l.coalWhy})`;
+    }
   }
 }
+
+const NUMERIC_INPUTS = ["drivePowerKW", "feedTPerH", "millOutletTempC", "millInletTempC", "inertFlowNm3PerH"] as const;
+
+/** Which rule decided the phase: the reason's text is built from it when asked. */
+type ReasonKind =
+  | "maintenance"
+  | "trip"
+  | "drive-unknown"
+  | "feed-unknown"
+  | "grinding"
+  | "running-empty"
+  | "stopped-loaded"
+  | "inert-unknown"
+  | "inerting"
+  | "hot-unknown"
+  | "warm-up"
+  | "stopped-empty";
 
 function fmt(x: number): string {
   return Number.isInteger(x) ? String(x) : String(Number(x.toPrecision(4)));

@@ -121,7 +121,8 @@ export class UnitPurge {
 
   /** Counted volume changes while a purge runs; null (with the reason) otherwise. */
   volumeChanges(): { value: number | null; reason: string } {
-    if (this.status === "running") return { value: this.view().volumeChanges, reason: "" };
+    // The count the view would show, without building it (the tracker's view refits).
+    if (this.status === "running") return { value: this.tracker.volumeChangesCounted, reason: "" };
     return { value: null, reason: `no purge running (${this.note})` };
   }
 

@@ -119,6 +119,11 @@ export class PurgeTracker {
     this.fitY = [];
   }
 
+  /** Volume changes counted since the purge started (view().volumeChanges once a purge has started). */
+  get volumeChangesCounted(): number {
+    return this.volumeChanges;
+  }
+
   /** End the purge; view() keeps the last figures with active false. */
   stop(): void {
     this.active = false;

@@ -31,6 +31,8 @@ export class RollingRobustSlope {
   private readonly xs: Float64Array;
   private readonly ys: Float64Array;
   private readonly slopes: Float64Array;
+  private relT = new Float64Array(0);
+  private linV = new Float64Array(0);
   private bucketV = new Float64Array(0);
 
   constructor(
@@ -78,20 +80,23 @@ export class RollingRobustSlope {
       }
     }
     if (this.n === this.t.length) this.grow();
-    const idx = (this.head + this.n) % this.t.length;
+    // Wrapping by comparison, not %: push runs for every sample.
+    const cap = this.t.length;
+    let idx = this.head + this.n;
+    if (idx >= cap) idx -= cap;
     this.t[idx] = tS;
     this.v[idx] = v;
     this.n++;
     const oldestAllowed = tS - this.windowS;
     while (this.n > 0 && this.t[this.head]! < oldestAllowed) {
-      this.head = (this.head + 1) % this.t.length;
+      if (++this.head === cap) this.head = 0;
       this.n--;
     }
   }
 
   /**
    * Theil–Sen slope in v-units per second, or null with fewer than two points.
-   * O(n log n) for the bucketing plus O(m² log m) for the m <= maxPoints representatives;
+   * O(n) for the bucketing plus O(m²) for the m <= maxPoints representatives (medians by selection);
    * meant to be called once per tick, not per sample.
    */
   slopePerS(): number | null {
@@ -100,24 +105,29 @@ export class RollingRobustSlope {
     if (m < 2) return null;
     const xs = this.xs;
     const ys = this.ys;
+    const slopes = this.slopes;
     let k = 0;
     for (let i = 0; i < m; i++) {
-      for (let j = i + 1; j < m; j++) this.slopes[k++] = (ys[j]! - ys[i]!) / (xs[j]! - xs[i]!);
+      const xi = xs[i]!;
+      const yi = ys[i]!;
+      for (let j = i + 1; j < m; j++) slopes[k++] = (ys[j]! - yi) / (xs[j]! - xi);
     }
-    const slope = medianSortedInPlace(this.slopes.subarray(0, k));
+    const slope = medianInPlace(slopes, k);
     // Only absurd inputs (values near the float limit) overflow; no slope is better than ±Infinity.
     return Number.isFinite(slope) ? slope : null;
   }
 
   /** Times relative to the oldest point: exact for nearby epoch seconds, and keeps precision. */
   private copyPoints(): number {
-    const origin = this.at(0);
-    for (let i = 0; i < this.n; i++) {
-      const idx = (this.head + i) % this.t.length;
-      this.xs[i] = this.t[idx]! - origin;
-      this.ys[i] = this.v[idx]!;
+    const { t, v, n } = this;
+    const origin = t[this.head]!;
+    let idx = this.head;
+    for (let i = 0; i < n; i++) {
+      this.xs[i] = t[idx]! - origin;
+      this.ys[i] = v[idx]!;
+      if (++idx === t.length) idx = 0;
     }
-    return this.n;
+    return n;
   }
 
   /**
@@ -126,37 +136,49 @@ export class RollingRobustSlope {
    * times are already sorted, and the representatives' times strictly increase.
    */
   private bucketPoints(): number {
-    const origin = this.at(0);
-    const widthS = (this.at(this.n - 1) - origin) / this.maxPoints;
-    if (this.bucketV.length < this.n) this.bucketV = new Float64Array(this.t.length);
-    let m = 0;
-    let runStart = 0; // index (0..n) of the current run's first point
-    let runBucket = -1;
-    const flush = (endExclusive: number): void => {
-      const len = endExclusive - runStart;
-      if (len <= 0) return;
-      // median time: the times are sorted already
-      const mid = runStart + (len >> 1);
-      const tMid = len % 2 ? this.at(mid) - origin : (this.at(mid - 1) - origin) / 2 + (this.at(mid) - origin) / 2;
-      for (let i = 0; i < len; i++) this.bucketV[i] = this.v[(this.head + runStart + i) % this.t.length]!;
-      this.xs[m] = tMid;
-      this.ys[m] = medianSortedInPlace(this.bucketV.subarray(0, len));
-      m++;
-    };
-    for (let i = 0; i < this.n; i++) {
-      const b = Math.min(this.maxPoints - 1, Math.floor((this.at(i) - origin) / widthS));
-      if (b !== runBucket) {
-        flush(i);
-        runStart = i;
-        runBucket = b;
-      }
+    const n = this.n;
+    if (this.relT.length < n) {
+      this.relT = new Float64Array(this.t.length);
+      this.linV = new Float64Array(this.t.length);
+      this.bucketV = new Float64Array(this.t.length);
     }
-    flush(this.n);
+    // The ring unrolled, oldest first, times relative to the oldest point.
+    const { t, v, relT, linV, bucketV, xs, ys } = this;
+    const origin = t[this.head]!;
+    let idx = this.head;
+    for (let i = 0; i < n; i++) {
+      relT[i] = t[idx]! - origin;
+      linV[i] = v[idx]!;
+      if (++idx === t.length) idx = 0;
+    }
+    const last = this.maxPoints - 1;
+    const widthS = relT[n - 1]! / this.maxPoints;
+    let m = 0;
+    let runStart = 0; // index of the current run's first point
+    let runBucket = Math.min(last, Math.floor(relT[0]! / widthS));
+    for (let i = 1; i <= n; i++) {
+      const b = i < n ? Math.min(last, Math.floor(relT[i]! / widthS)) : -1;
+      if (b === runBucket) continue;
+      // the run [runStart, i) is one bucket; its times are sorted already
+      const len = i - runStart;
+      const mid = runStart + (len >> 1);
+      xs[m] = len % 2 ? relT[mid]! : relT[mid - 1]! / 2 + relT[mid]! / 2;
+      if (len <= 32) ys[m] = smallMedianInPlace(linV, runStart, len);
+      else {
+        for (let j = 0; j < len; j++) bucketV[j] = linV[runStart + j]!;
+        ys[m] = medianInPlace(bucketV, len);
+      }
+      m++;
+      runStart = i;
+      runBucket = b;
+    }
     return m;
   }
 
+  /** The i-th oldest time (0 <= i < n). */
   private at(i: number): number {
-    return this.t[(this.head + i) % this.t.length]!;
+    const idx = this.head + i;
+    return this.t[idx < this.t.length ? idx : idx - this.t.length]!;
   }
 
   private grow(): void {
@@ -165,11 +187,178 @@ export class RollingRobustSlope {
   }
 }
 
-/** Median of a non-empty array, sorting it in place (typed arrays sort numerically). */
-function medianSortedInPlace(a: Float64Array): number {
-  a.sort();
-  const len = a.length;
+/**
+ * Median of a[0..len) (len >= 1), reordering them in place. The value is the one a full
+ * numeric sort would give (as Float64Array.prototype.sort: −0 before +0), found by selection
+ * in O(len) instead of O(len log len): the sort of the pairwise slopes was most of a tick.
+ */
+export function medianInPlace(a: Float64Array, len: number): number {
   const mid = len >> 1;
+  const odd = len % 2 === 1;
+  let hi: number;
+  let lo: number;
+  // How many of a[0..len) are negative or −0, when the middle is zero (the comparisons below
+  // take −0 and +0 as equal; the sort puts every −0 first).
+  let negatives = -1;
+  if (len <= 16) {
+    insertionSort(a, len);
+    hi = a[mid]!;
+    lo = odd ? hi : a[mid - 1]!;
+  } else if (len >= BRACKET_MIN && bracketMiddle(a, len, mid)) {
+    ({ lo, hi, negatives } = bracket);
+  } else {
+    hi = selectInPlace(a, len, mid);
+    lo = odd ? hi : maxOf(a, 0, mid);
+  }
+  if (lo === 0 || hi === 0) {
+    if (negatives < 0) negatives = countNegatives(a, 0, len);
+    if (lo === 0) lo = (odd ? mid : mid - 1) < negatives ? -0 : 0;
+    if (hi === 0) hi = mid < negatives ? -0 : 0;
+  }
+  if (odd) return hi;
   // halves first: no overflow for values near the float limit
-  return len % 2 ? a[mid]! : a[mid - 1]! / 2 + a[mid]! / 2;
+  return lo / 2 + hi / 2;
+}
+
+/** medianInPlace for a short run a[from..from + len), sorting it in place. */
+function smallMedianInPlace(a: Float64Array, from: number, len: number): number {
+  const end = from + len;
+  for (let i = from + 1; i < end; i++) {
+    const x = a[i]!;
+    let j = i - 1;
+    while (j >= from && a[j]! > x) {
+      a[j + 1] = a[j]!;
+      j--;
+    }
+    a[j + 1] = x;
+  }
+  const mid = len >> 1;
+  const odd = len % 2 === 1;
+  let hi = a[from + mid]!;
+  let lo = odd ? hi : a[from + mid - 1]!;
+  if (lo === 0 || hi === 0) {
+    const negatives = countNegatives(a, from, end);
+    if (lo === 0) lo = (odd ? mid : mid - 1) < negatives ? -0 : 0;
+    if (hi === 0) hi = mid < negatives ? -0 : 0;
+  }
+  return odd ? hi : lo / 2 + hi / 2;
+}
+
+/** Largest of a[from..to) (to > from). */
+function maxOf(a: Float64Array, from: number, to: number): number {
+  let m = a[from]!;
+  for (let i = from + 1; i < to; i++) if (a[i]! > m) m = a[i]!;
+  return m;
+}
+
+function countNegatives(a: Float64Array, from: number, to: number): number {
+  let n = 0;
+  for (let i = from; i < to; i++) {
+    const x = a[i]!;
+    if (x < 0 || (x === 0 && 1 / x < 0)) n++;
+  }
+  return n;
+}
+
+// Bracketing the middle: a sample of evenly spaced entries gives two values that
+// very likely enclose the middle ranks; one pass counts the entries below the bracket and
+// keeps those inside it, and the middle is selected among those few. When the bracket
+// misses (about 1 % of the time), the caller selects among all entries as before. The
+// Theil–Sen median of 1770 pairwise slopes takes about half the time this way.
+const BRACKET_MIN = 512;
+const SAMPLE = 255;
+/** Sample ranks either side of the middle's expected rank (2.5 standard deviations of it). */
+const SAMPLE_SPREAD = 20;
+const sample = new Float64Array(SAMPLE);
+let inside = new Float64Array(1024);
+const bracket = { lo: 0, hi: 0, negatives: -1 };
+
+/**
+ * The middle values of a[0..len) (ranks mid − 1 and mid, or mid alone for an odd len) into
+ * `bracket`, without reordering `a`; false when the bracket misses them.
+ */
+function bracketMiddle(a: Float64Array, len: number, mid: number): boolean {
+  const stride = len / SAMPLE;
+  for (let q = 0; q < SAMPLE; q++) sample[q] = a[Math.floor((q + 0.5) * stride)]!;
+  const centre = SAMPLE >> 1;
+  const top = selectInPlace(sample, SAMPLE, centre + SAMPLE_SPREAD);
+  const bottom = selectInPlace(sample, centre + SAMPLE_SPREAD, centre - SAMPLE_SPREAD);
+  if (inside.length < len) inside = new Float64Array(len);
+  let below = 0;
+  let m = 0;
+  for (let i = 0; i < len; i++) {
+    const x = a[i]!;
+    if (x < bottom) below++;
+    else if (x <= top) inside[m++] = x;
+  }
+  const first = len % 2 ? mid : mid - 1;
+  if (below > first || below + m <= mid) return false;
+  // All inside are equal when the bracket is a single value (as ±0 may be: see the caller).
+  const hi = bottom === top ? bottom : selectInPlace(inside, m, mid - below);
+  bracket.hi = hi;
+  // Rank mid − 1 is inside too (below <= mid − 1): the largest of those selected before mid.
+  bracket.lo = len % 2 ? hi : bottom === top ? bottom : maxOf(inside, 0, mid - below);
+  // Every entry below the bracket is negative when the middle is zero (bottom <= 0 then).
+  bracket.negatives = hi === 0 || bracket.lo === 0 ? below + countNegatives(inside, 0, m) : -1;
+  return true;
+}
+
+function insertionSort(a: Float64Array, len: number): void {
+  for (let i = 1; i < len; i++) {
+    const x = a[i]!;
+    let j = i - 1;
+    while (j >= 0 && a[j]! > x) {
+      a[j + 1] = a[j]!;
+      j--;
+    }
+    a[j + 1] = x;
+  }
+}
+
+/**
+ * The k-th smallest of a[0..len) (Hoare's selection with a median-of-three pivot); on return
+ * a[0..k) <= a[k] <= a(k..len). Falls back to a sort of the remaining range should the
+ * partitions keep coming out lopsided, so the worst case stays O(len log len).
+ */
+function selectInPlace(a: Float64Array, len: number, k: number): number {
+  let l = 0;
+  let r = len - 1;
+  let budget = 2 * Math.ceil(Math.log2(len)) + 8;
+  for (;;) {
+    if (r <= l + 1) {
+      if (r === l + 1 && a[r]! < a[l]!) swap(a, l, r);
+      return a[k]!;
+    }
+    if (--budget < 0) {
+      a.subarray(l, r + 1).sort();
+      return a[k]!;
+    }
+    const m = (l + r) >> 1;
+    swap(a, m, l + 1);
+    if (a[l]! > a[r]!) swap(a, l, r);
+    if (a[l + 1]! > a[r]!) swap(a, l + 1, r);
+    if (a[l]! > a[l + 1]!) swap(a, l, l + 1);
+    // a[l] <= pivot a[l + 1] <= a[r]: sentinels for both scans
+    const pivot = a[l + 1]!;
+    let i = l + 1;
+    let j = r;
+    for (;;) {
+      do i++;
+      while (a[i]! < pivot);
+      do j--;
+      while (a[j]! > pivot);
+      if (j < i) break;
+      swap(a, i, j);
+    }
+    a[l + 1] = a[j]!;
+    a[j] = pivot;
+    if (j >= k) r = j - 1;
+    if (j <= k) l = i;
+  }
+}
+
+function swap(a: Float64Array, i: number, j: number): void {
+  const x = a[i]!;
+  a[i] = a[j]!;
+  a[j] = x;
 }

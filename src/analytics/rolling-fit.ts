@@ -34,11 +34,11 @@ export class RollingLinearFit {
   /** Time span covered by the points held, in seconds. */
   get spanS(): number {
     if (this.n < 2) return 0;
-    return this.at(this.n - 1).tS - this.at(0).tS;
+    return this.tAt(this.n - 1) - this.tAt(0);
   }
 
   get newestS(): number | null {
-    return this.n ? this.at(this.n - 1).tS : null;
+    return this.n ? this.tAt(this.n - 1) : null;
   }
 
   clear(): void {
@@ -52,7 +52,9 @@ export class RollingLinearFit {
   push(tS: number, value: number): void {
     if (this.n === this.t.length) this.grow();
     if (this.n === 0) this.originS = tS;
-    const idx = (this.head + this.n) % this.t.length;
+    // Wrapping by comparison, not %: push runs for every sample.
+    let idx = this.head + this.n;
+    if (idx >= this.t.length) idx -= this.t.length;
     this.t[idx] = tS;
     this.v[idx] = value;
     this.n++;
@@ -81,9 +83,10 @@ export class RollingLinearFit {
     return this.n ? this.sv / this.n : null;
   }
 
-  private at(i: number): { tS: number; value: number } {
-    const idx = (this.head + i) % this.t.length;
-    return { tS: this.t[idx]!, value: this.v[idx]! };
+  /** The i-th oldest time (0 <= i < n). */
+  private tAt(i: number): number {
+    const idx = this.head + i;
+    return this.t[idx < this.t.length ? idx : idx - this.t.length]!;
   }
 
   private dropOldest(): void {
@@ -93,7 +96,7 @@ export class RollingLinearFit {
     this.sv -= value;
     this.stt -= x * x;
     this.stv -= x * value;
-    this.head = (this.head + 1) % this.t.length;
+    if (++this.head === this.t.length) this.head = 0;
     this.n--;
     if (this.n === 0) this.clear();
   }

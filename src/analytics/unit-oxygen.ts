@@ -14,7 +14,7 @@ import type { OxygenConfig } from "../config/sections/oxygen.js";
 import { o2SignalIds } from "../config/sections/oxygen.js";
 import type { InertingState } from "../core/types.js";
 import type { O2Basis } from "../physics/oxygen.js";
-import { InertingEstimator, fmt, type MeasuredInertingState, type O2Limit } from "./inerting.js";
+import { InertingEstimator, fmt, type InertingEvaluation, type MeasuredInertingState, type O2Limit } from "./inerting.js";
 import { O2Trend, timeToLimitS } from "./oxygen-trend.js";
 import { UnitPurge, type PurgeProgressView } from "./purge-session.js";
 import type { Trust } from "./signal-state.js";
@@ -114,11 +114,37 @@ export interface UnitOxygenResult {
   derived: { key: "o2PctVol" | "marginPctPt" | "trendPctPtPerMin" | "timeToLimitS" | "purgeVolumeChanges"; value: number | null; reason: string }[];
 }
 
+/** A limit's trend at the last step. */
+interface LimitTrend {
+  limit: O2Limit;
+  trend: O2Trend;
+  pctPtPerMin: number | null;
+  timeS: number | null;
+}
+
+/** What the last step found, as computed; the view and the texts of known values are built from it when asked. */
+interface Step {
+  trusts: Trust[];
+  o2: Trust;
+  used: string[];
+  voteView: O2VoteView | null;
+  ev: InertingEvaluation;
+  state: InertingState;
+  purging: boolean;
+  timeS: number | null;
+  trendNow: number | null;
+  /** Set at the step when the trend is unknown (it is recorded then); else built when asked. */
+  trendReason: string | null;
+}
+
 export class UnitOxygen {
   readonly estimator: InertingEstimator;
   readonly signalIds: string[];
-  private readonly trends = new Map<string, O2Trend>();
+  /** One per limit, in the estimator's order (the order of its comparisons). */
+  private readonly limitTrends: LimitTrend[];
   readonly purge: UnitPurge | null;
+  private last: Step | null = null;
+  private lastView: InertingView | null = null;
 
   constructor(
     readonly unitId: string,
@@ -128,18 +154,46 @@ export class UnitOxygen {
     this.estimator = new InertingEstimator(oxygen, o2Basis);
     this.signalIds = o2SignalIds(oxygen);
     if (!this.signalIds.length) throw new RangeError(`UnitOxygen ${unitId}: expected signal or signals; found neither`);
-    for (const l of this.estimator.limits) this.trends.set(l.id, new O2Trend(oxygen.trendWindowS, oxygen.trendMaxGapS));
+    this.limitTrends = this.estimator.limits.map((limit) => ({ limit, trend: new O2Trend(oxygen.trendWindowS, oxygen.trendMaxGapS), pctPtPerMin: null, timeS: null }));
     this.purge = oxygen.purge ? new UnitPurge(oxygen.purge, o2Basis) : null;
   }
 
   evaluate(inp: UnitOxygenInputs): UnitOxygenResult {
+    this.step(inp);
+    const view = this.view();
+    const ev = this.last!.ev;
+    const trendReason = this.trendReason;
+    const derived: UnitOxygenResult["derived"] = [
+      { key: "o2PctVol", value: view.o2PctVol, reason: ev.reason },
+      { key: "marginPctPt", value: view.marginPctPt, reason: ev.reason },
+      { key: "trendPctPtPerMin", value: view.trendPctPtPerMin, reason: trendReason },
+      { key: "timeToLimitS", value: this.timeToLimitValue, reason: trendReason },
+    ];
+    if (this.purge) {
+      const v = this.purge.volumeChanges();
+      derived.push({ key: "purgeVolumeChanges", value: v.value, reason: v.reason });
+    }
+    return { view, derived };
+  }
+
+  /**
+   * Advance to `inp.nowMs` and compute the unit's values (read them from the getters). The
+   * reasons of known values are left out; view() and the getters build them when asked.
+   */
+  step(inp: UnitOxygenInputs): void {
     const o = this.oxygen;
-    const byId = new Map(inp.o2.map((r) => [r.id, r]));
-    const inputs = this.signalIds.map((sid) => {
-      const r = byId.get(sid);
-      if (!r) throw new RangeError(`UnitOxygen ${this.unitId}: no input for O2 signal "${sid}"`);
-      return r;
-    });
+    const ids = this.signalIds;
+    let inputs = inp.o2;
+    // The monitor passes the signals in config order; anything else is looked up by id.
+    if (inputs.length !== ids.length || inputs.some((r, i) => r.id !== ids[i])) {
+      const byId = new Map(inp.o2.map((r) => [r.id, r]));
+      inputs = ids.map((sid) => {
+        const r = byId.get(sid);
+        if (!r) throw new RangeError(`UnitOxygen ${this.unitId}: no input for O2 signal "${sid}"`);
+        return r;
+      });
+    }
+    this.lastView = null;
 
     // One value from the analyser(s).
     let o2: Trust;
@@ -163,29 +217,23 @@ export class UnitOxygen {
       const why = inputs.filter((x) => !x.trust.ok).map((x) => x.trust.reason);
       o2 = r.value !== null ? { ok: true, value: r.value, reason: "" } : { ok: false, value: null, reason: `${r.reason}${why.length ? ` (${why.join("; ")})` : ""}` };
     }
-    const readings: O2ReadingView[] = inputs.map((x) => ({
-      id: x.id,
-      pctVol: x.trust.ok ? x.trust.value : null,
-      trusted: x.trust.ok,
-      used: used.includes(x.id),
-      reason: x.trust.reason,
-    }));
 
-    const ev = this.estimator.evaluate(o2, inp.h2o);
+    const ev = this.estimator.evaluate(o2, inp.h2o, false);
     const measured: MeasuredInertingState = ev.state;
 
     // Trend on each limit's basis, from the analysers' source time; restarted by any break.
-    const pointMs = Math.max(...inputs.filter((x) => used.includes(x.id)).map((x) => x.sourceTimeMs ?? inp.nowMs), Number.NEGATIVE_INFINITY);
-    const perLimit = new Map<string, { trend: number | null; reason: string; time: number | null }>();
+    let pointMs = Number.NEGATIVE_INFINITY;
+    for (const x of inputs) if (used.includes(x.id)) pointMs = Math.max(pointMs, x.sourceTimeMs ?? inp.nowMs);
     if (ev.ok) {
-      for (const c of ev.comparisons) {
-        const tr = this.trends.get(c.limit.id)!;
-        tr.add(Number.isFinite(pointMs) ? pointMs : inp.nowMs, c.o2PctVol, used.join(","));
-        const t = tr.trend();
-        perLimit.set(c.limit.id, { trend: t.pctPtPerMin, reason: t.reason, time: timeToLimitS(c.marginPctPt, t.pctPtPerMin) });
-      }
+      const seriesKey = used.join(",");
+      ev.comparisons.forEach((c, i) => {
+        const lt = this.limitTrends[i]!;
+        lt.trend.add(Number.isFinite(pointMs) ? pointMs : inp.nowMs, c.o2PctVol, seriesKey);
+        lt.pctPtPerMin = lt.trend.read();
+        lt.timeS = timeToLimitS(c.marginPctPt, lt.pctPtPerMin);
+      });
     } else {
-      for (const tr of this.trends.values()) tr.reset();
+      for (const lt of this.limitTrends) lt.trend.reset();
     }
 
     // Purge progress on the analysers' basis.
@@ -195,30 +243,93 @@ export class UnitOxygen {
 
     // Time to limit: the first limit reached; unknown when any limit's trend is.
     let timeS: number | null = null;
-    let trendReason: string;
-    if (!ev.ok) {
-      trendReason = `O2 trend unknown: ${ev.reason}`;
-    } else {
-      const entries = ev.comparisons.map((c) => ({ c, p: perLimit.get(c.limit.id)! }));
-      const g = perLimit.get(ev.governing.limit.id)!;
-      if (entries.some((e) => e.p.time === 0)) {
-        timeS = 0;
-        trendReason = `O2 rising at or above a limit; ${g.reason}`;
-      } else if (entries.some((e) => e.p.trend === null)) {
-        trendReason = entries.find((e) => e.p.trend === null)!.p.reason;
-      } else {
-        const times = entries.map((e) => e.p.time).filter((t): t is number => t !== null);
+    if (ev.ok) {
+      const lts = this.limitTrends;
+      if (lts.some((lt) => lt.timeS === 0)) timeS = 0;
+      else if (!lts.some((lt) => lt.pctPtPerMin === null)) {
+        const times = lts.map((lt) => lt.timeS).filter((t): t is number => t !== null);
         timeS = times.length ? Math.min(...times) : null;
-        trendReason = timeS === null ? `O2 not rising toward a limit; ${g.reason}` : `${fmt(timeS)} s to the limit at the present trend; ${g.reason}`;
       }
     }
-    const trendNow = ev.ok ? perLimit.get(ev.governing.limit.id)!.trend : null;
+    const trendNow = ev.ok ? this.governingTrend(ev).pctPtPerMin : null;
+    this.last = { trusts: inputs.map((x) => x.trust), o2, used, voteView, ev, state, purging, timeS, trendNow, trendReason: null };
+    if (trendNow === null) this.last.trendReason = this.trendReason;
+  }
+
+  private governingTrend(ev: Extract<InertingEvaluation, { ok: true }>): LimitTrend {
+    return this.limitTrends[ev.comparisons.indexOf(ev.governing)]!;
+  }
+
+  /** The inerting state as of the last step. */
+  get state(): InertingState {
+    return this.last!.state;
+  }
+
+  /** O2 on the governing limit's basis and the margin to it; null when unknown (ev reason says why). */
+  get o2PctVol(): number | null {
+    const ev = this.last!.ev;
+    return ev.ok ? ev.governing.o2PctVol : null;
+  }
+
+  get marginPctPt(): number | null {
+    const ev = this.last!.ev;
+    return ev.ok ? ev.governing.marginPctPt : null;
+  }
+
+  /** Why the O2 is unknown, or how it compares with its limit. */
+  get o2Reason(): string {
+    const ev = this.last!.ev;
+    if (ev.ok && ev.reason === "") ev.reason = this.estimator.describe(ev);
+    return ev.reason;
+  }
+
+  get trendPctPtPerMin(): number | null {
+    return this.last!.trendNow;
+  }
+
+  /** Known trend, not approaching the limit: an endless time, so a rule on it clears (null would hold it). */
+  get timeToLimitValue(): number | null {
+    const l = this.last!;
+    return l.timeS ?? (l.trendNow !== null ? Number.POSITIVE_INFINITY : null);
+  }
+
+  /** The reason of the trend and of the time to the limit. */
+  get trendReason(): string {
+    const l = this.last!;
+    if (l.trendReason !== null) return l.trendReason;
+    const ev = l.ev;
+    if (!ev.ok) return `O2 trend unknown: ${this.o2Reason}`;
+    const g = this.governingTrend(ev).trend.readReason;
+    const lts = this.limitTrends;
+    if (lts.some((lt) => lt.timeS === 0)) return `O2 rising at or above a limit; ${g}`;
+    const unknown = lts.find((lt) => lt.pctPtPerMin === null);
+    if (unknown) return unknown.trend.readReason;
+    const timeS = l.timeS;
+    return timeS === null ? `O2 not rising toward a limit; ${g}` : `${fmt(timeS)} s to the limit at the present trend; ${g}`;
+  }
+
+  /** The unit's view as of the last step (built when first asked for after it). */
+  view(): InertingView {
+    this.lastView ??= this.buildView();
+    return this.lastView;
+  }
+
+  private buildView(): InertingView {
+    const o = this.oxygen;
+    const { trusts, o2, used, voteView, ev, state, purging, timeS, trendNow } = this.last!;
+    const measured: MeasuredInertingState = ev.state;
+    const evReason = this.o2Reason;
+    const trendReason = this.trendReason;
+    const readings: O2ReadingView[] = this.signalIds.map((id, i) => {
+      const t = trusts[i]!;
+      return { id, pctVol: t.ok ? t.value : null, trusted: t.ok, used: used.includes(id), reason: t.reason };
+    });
 
     const lowest = this.estimator.lowestLimit();
     const gLimit = ev.ok ? ev.governing.limit : lowest;
-    const limits: O2LimitView[] = this.estimator.limits.map((l) => {
+    const limits: O2LimitView[] = this.estimator.limits.map((l, i) => {
       const c = ev.ok ? ev.comparisons.find((x) => x.limit.id === l.id)! : null;
-      const p = perLimit.get(l.id);
+      const p = ev.ok ? this.limitTrends[i]! : null;
       return {
         id: l.id,
         pctVol: l.pctVol,
@@ -230,24 +341,24 @@ export class UnitOxygen {
         temperatureAllowancePctPt: l.temperatureAllowancePctPt,
         o2PctVol: c ? c.o2PctVol : null,
         marginPctPt: c ? c.marginPctPt : null,
-        trendPctPtPerMin: p ? p.trend : null,
-        timeToLimitS: p ? p.time : null,
+        trendPctPtPerMin: p ? p.pctPtPerMin : null,
+        timeToLimitS: p ? p.timeS : null,
         governing: l.id === gLimit.id,
       };
     });
 
     const purgeView = this.purge ? this.purge.view() : null;
-    let reason = ev.reason;
+    let reason = evReason;
     if (purging && purgeView) {
       reason =
-        `being purged: ${ev.reason}; not yet ${fmt(o.marginalBandPctPt)} %-pt below the limit, so not inert; ` +
+        `being purged: ${evReason}; not yet ${fmt(o.marginalBandPctPt)} %-pt below the limit, so not inert; ` +
         `${purgeView.volumeChanges === null ? "no" : fmt(purgeView.volumeChanges)} volume changes counted` +
         (purgeView.predictedO2PctVol === null ? "" : `, well-mixed prediction ${fmt(purgeView.predictedO2PctVol)} % ${this.o2Basis}`) +
         (purgeView.fittedTimeToTargetS === null ? "" : `, ${Math.round(purgeView.fittedTimeToTargetS)} s to the target ${fmt(purgeView.targetO2PctVol)} % at the measured decay`);
     }
     if (voteView && (voteView.disagreement || voteView.degraded) && ev.ok) reason += `; ${voteView.reason}`;
 
-    const view: InertingView = {
+    return {
       unitId: this.unitId,
       state,
       measuredState: measured,
@@ -273,18 +384,5 @@ export class UnitOxygen {
       purge: purgeView,
       reason,
     };
-
-    const derived: UnitOxygenResult["derived"] = [
-      { key: "o2PctVol", value: view.o2PctVol, reason: ev.reason },
-      { key: "marginPctPt", value: view.marginPctPt, reason: ev.reason },
-      { key: "trendPctPtPerMin", value: trendNow, reason: trendReason },
-      // Known trend, not approaching the limit: an endless time, so a rule on it clears (null would hold it).
-      { key: "timeToLimitS", value: timeS ?? (trendNow !== null ? Number.POSITIVE_INFINITY : null), reason: trendReason },
-    ];
-    if (this.purge) {
-      const v = this.purge.volumeChanges();
-      derived.push({ key: "purgeVolumeChanges", value: v.value, reason: v.reason });
-    }
-    return { view, derived };
   }
 }

@@ -66,6 +66,8 @@ export class Engine {
    * signal whose analyser is not healthy is untrusted.
    */
   private readonly monitors: Monitor[];
+  /** The monitors that take samples, in the same order (ingest runs for every sample). */
+  private readonly ingesters: Monitor[];
   private readonly board: AdvisoryBoard;
   private readonly wiring = new Map<string, RuleWiring>();
   /** Discrete states (phase, inerting, analyser health) as of the last tick, to report changes. */
@@ -83,6 +85,7 @@ export class Engine {
     this.phases = new PhaseMonitor(cfg.units);
     this.health = new HealthMonitor(cfg.analysers, cfg.signals);
     this.monitors = [this.phases, this.health, this.dewPoints, this.co, this.oxygen];
+    this.ingesters = this.monitors.filter((m) => m.ingest);
     this.quantities = derivedQuantities(cfg);
     const info = new Map<string, { unit: string; label: string }>(this.quantities.map((q) => [q.key, q]));
     for (const s of this.signals.values()) info.set(s.cfg.id, { unit: s.unitSymbol, label: s.cfg.name });
@@ -113,7 +116,7 @@ export class Engine {
     if (!state) return "unknown-signal";
     const before = state.duplicates;
     if (!state.accept(s)) return state.duplicates > before ? "duplicate" : "out-of-order";
-    for (const m of this.monitors) m.ingest?.(s);
+    for (const m of this.ingesters) m.ingest!(s);
     return "accepted";
   }
 
