@@ -60,10 +60,15 @@ interface Entry {
   members: Member[];
   /** Latest value of the status signal says "in function check". */
   statusFunctionCheck: boolean;
+  /** Time of the last tick at which the analyser was in function check (its settle time runs from there). */
+  lastFunctionCheckMs: number | null;
   view: AnalyserView;
 }
 
 const rank = (s: AnalyserHealthState): number => HEALTH_ORDER.indexOf(s);
+
+/** Within the settle time after the analyser's last function check. */
+const settling = (e: Entry, nowMs: number): boolean => e.lastFunctionCheckMs !== null && e.cfg.settleS > 0 && nowMs - e.lastFunctionCheckMs < e.cfg.settleS * 1000;
 
 export class HealthMonitor implements Monitor {
   private readonly entries: Entry[] = [];
@@ -77,6 +82,7 @@ export class HealthMonitor implements Monitor {
         cfg: a,
         members: [],
         statusFunctionCheck: false,
+        lastFunctionCheckMs: null,
         view: { id: a.id, name: a.name, state: "no-data", reasons: ["no sample received yet"], sinceMs: null, plantRunning: true, signals: [] },
       };
       const add = (s: SignalConfig, role: MemberRole) => {
@@ -140,7 +146,17 @@ export class HealthMonitor implements Monitor {
       // Worst member first (stable: config order among equals), each with all its reasons.
       const v = e.view;
       v.plantRunning = plantRunning;
-      if (e.members.every((m) => m.view.state === "ok")) {
+      const bad = e.members.filter((m) => m.view.state !== "ok").sort((x, y) => rank(x.view.state) - rank(y.view.state));
+      let worst: AnalyserHealthState = bad.length ? bad[0]!.view.state : "ok";
+      let reasons: string[] | null = null;
+      if (worst === "function-check") e.lastFunctionCheckMs = ctx.nowMs;
+      else if (settling(e, ctx.nowMs) && rank(worst) > rank("function-check")) {
+        // Check gas or blowback air is still in the cell and the line: not yet process gas.
+        const leftS = Math.ceil((e.lastFunctionCheckMs! + e.cfg.settleS * 1000 - ctx.nowMs) / 1000);
+        worst = "function-check";
+        reasons = [`settling after a function check: ${leftS} s of ${e.cfg.settleS} s left`];
+      }
+      if (worst === "ok") {
         if (v.sinceMs === null || v.state !== "ok") v.sinceMs = ctx.nowMs;
         if (v.state !== "ok" || v.reasons.length) {
           v.state = "ok";
@@ -148,11 +164,9 @@ export class HealthMonitor implements Monitor {
         }
         continue;
       }
-      const bad = e.members.filter((m) => m.view.state !== "ok").sort((x, y) => rank(x.view.state) - rank(y.view.state));
-      const worst: AnalyserHealthState = bad[0]!.view.state;
       if (v.sinceMs === null || v.state !== worst) v.sinceMs = ctx.nowMs;
       v.state = worst;
-      v.reasons = bad.flatMap((m) => m.view.reasons.map((r) => `${m.signal}: ${r}`));
+      v.reasons = reasons ?? bad.flatMap((m) => m.view.reasons.map((r) => `${m.signal}: ${r}`));
     }
   }
 

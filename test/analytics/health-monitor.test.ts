@@ -35,8 +35,8 @@ const signals: SignalConfig[] = [
   sig("other", "degC"),
 ];
 const analysers: AnalyserConfig[] = [
-  { id: "a1", name: "Filter O2/CO analyser", frozenWindowS: 300, frozenEpsilon: 0.005, phaseUnit: "vm1" },
-  { id: "a2", name: "Filter H2O analyser", frozenWindowS: 300, frozenEpsilon: 0.005, loopCurrentSignal: "a2.loop", functionCheckSignal: "a2.status" },
+  { id: "a1", name: "Filter O2/CO analyser", frozenWindowS: 300, frozenEpsilon: 0.005, phaseUnit: "vm1", settleS: 0 },
+  { id: "a2", name: "Filter H2O analyser", frozenWindowS: 300, frozenEpsilon: 0.005, loopCurrentSignal: "a2.loop", functionCheckSignal: "a2.status", settleS: 0 },
 ];
 
 const good = (signal: string, value: number, tMs: number, extra: Partial<Sample> = {}): Sample => ({

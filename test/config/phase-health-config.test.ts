@@ -49,7 +49,7 @@ describe("phase and analyser config", () => {
     expect(cfg.units[0]!.phase).toMatchObject({ drivePower: "d.power", minDwellS: 10, initialCoalInside: true });
     expect(cfg.units[0]!.phase!.runEmptyS).toBeUndefined(); // the tracker's default (300 s) applies
     expect(cfg.analysers).toEqual([
-      { id: "a6", name: "Filter O2/CO analyser", frozenWindowS: 600, frozenEpsilon: 0.005, loopCurrentSignal: "a.loop", functionCheckSignal: "a.status", phaseUnit: "vm1" },
+      { id: "a6", name: "Filter O2/CO analyser", frozenWindowS: 600, frozenEpsilon: 0.005, loopCurrentSignal: "a.loop", functionCheckSignal: "a.status", phaseUnit: "vm1", settleS: 0 },
     ]);
     expect(parseConfig(base.replace(/analysers:\n.*\n$/, "").replace(/, analyser: a6/g, ""), "plant.yaml").analysers).toEqual([]);
   });

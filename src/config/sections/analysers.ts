@@ -23,6 +23,11 @@ export const analyserSchema = z.strictObject({
   /** The analyser's status, unit "state": non-zero = in function check (NAMUR NE 107 category C). */
   functionCheckSignal: id.optional(),
   /**
+   * After a function check ends, the readings stay untrusted this long, s: check gas or
+   * blowback air still in the cell and the sample line (an extractive analyser's flush time).
+   */
+  settleS: z.number().nonnegative().default(0),
+  /**
    * The mill whose operating phase says whether the plant runs (starting, grinding, stopping):
    * only then must a value move, so only then is a flat value frozen. Without it, or while the
    * phase is unknown, the plant is taken as running (the cautious side).
