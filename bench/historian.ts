@@ -23,14 +23,9 @@ import { join } from "node:path";
 import Database from "better-sqlite3";
 import { createScenario } from "../src/sim/plant.js";
 import { Historian } from "../src/store/historian.js";
+import { wholeArg } from "./args.js";
 
-function arg(name: string, dflt: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  if (i < 0) return dflt;
-  const v = Number(process.argv[i + 1]);
-  if (!Number.isSafeInteger(v) || v < 1) throw new Error(`--${name}: expected a whole number ≥ 1, found "${process.argv[i + 1] ?? ""}"`);
-  return v;
-}
+const arg = wholeArg;
 const onlyArg = process.argv.indexOf("--only");
 const ONLY = new Set(onlyArg >= 0 ? (process.argv[onlyArg + 1] ?? "").split(",") : ["write", "size", "trend", "year"]);
 for (const o of ONLY) if (!["write", "size", "trend", "year"].includes(o)) throw new Error(`--only: expected some of write,size,trend,year, found "${o}"`);

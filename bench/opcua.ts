@@ -36,14 +36,9 @@ import {
 import type { OpcUaSourceConfig, SignalConfig } from "../src/config/schema.js";
 import { OpcUaSource } from "../src/sources/opcua.js";
 import { ensureOwnCertificate } from "../src/sources/opcua-pki.js";
+import { wholeArg } from "./args.js";
 
-function arg(name: string, dflt: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  if (i < 0) return dflt;
-  const v = Number(process.argv[i + 1]);
-  if (!Number.isSafeInteger(v) || v < 1) throw new Error(`--${name}: expected a whole number ≥ 1, found "${process.argv[i + 1] ?? ""}"`);
-  return v;
-}
+const arg = wholeArg;
 
 const ITEMS = arg("items", 1000);
 const SAMPLING_MS = arg("sampling-ms", 100);

@@ -10,6 +10,7 @@ const benches: { name: string; file: string; args: string[] }[] = [
   { name: "historian", file: "historian.ts", args: ["--seconds", process.env.BENCH_SECONDS ?? "200"] },
   { name: "opcua", file: "opcua.ts", args: [] },
   { name: "replay", file: "replay.ts", args: ["--hours", process.env.BENCH_REPLAY_HOURS ?? "24"] },
+  { name: "glance", file: "glance.ts", args: [] },
 ];
 
 console.log(`millwarden benchmarks on ${os.cpus().length} × ${os.cpus()[0]?.model ?? "cpu"}, Node ${process.version}, ${new Date().toISOString()}`);

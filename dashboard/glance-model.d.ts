@@ -19,10 +19,10 @@ export function advisoryActions(advisory: AdvisoryView): AdvisoryAction[];
 export function advisoryMarks(advisory: Pick<AdvisoryView, "firstOut" | "chattering" | "standing">): string[];
 export type ShelveChoice = { id: string; label: string } & ({ durationS: number; oneShot?: undefined } | { oneShot: true; durationS?: undefined });
 export const SHELVE_CHOICES: readonly ShelveChoice[];
-export type CommandBody = { by: string; reason?: string; durationS?: number; oneShot?: true };
+export type CommandBody = { reason?: string; durationS?: number; oneShot?: true };
 export function commandBody(
   kind: AdvisoryAction,
-  fields: { by?: string | null; reason?: string | null; choice?: string | null },
+  fields: { reason?: string | null; choice?: string | null },
 ): { body: CommandBody; error?: undefined } | { error: string; body?: undefined };
 export function formatAge(ms: number): string;
 export function formatNumber(value: number | null | undefined, digits: number): string;
@@ -58,3 +58,11 @@ export function sparklineRuns(
   height: number,
   minSpan?: number,
 ): { runs: string[]; min: number | null; max: number | null };
+export const PHASE_WORDS: Record<string, string>;
+export function phaseText(phase: { phase: string; sinceMs: number }, nowMs: number): { word: string; since: string };
+export function dewTrendText(
+  summary: { status: string; lowestMarginK: number | null; lowestMarginTrendKPerMin: number | null; shortestTimeToCondensationS: number | null } | undefined,
+): { trend: string; time: string | null } | null;
+export function quietText(lastMessageAtMs: number, browserNowMs: number, quietMs: number): string | null;
+export function signalProblems(signals: readonly SignalView[], nowMs: number): { problem: string; names: string[] }[];
+export function shortReason(reason: string | null | undefined): string;

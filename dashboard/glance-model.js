@@ -125,24 +125,21 @@ export const SHELVE_CHOICES = [
   { id: "one-shot", label: "until it clears (one-shot)", oneShot: true },
 ];
 
-const NAME_MAX_CHARS = 64;
 const REASON_MAX_CHARS = 500;
 
 /**
  * The request body for a command from what was typed, or the reason it cannot be sent yet.
+ * Who gives it is the login session's (the daemon takes it from there, never from the body).
  * The limits are the API's (src/server/params.ts), so the form says so before the daemon does.
  */
-export function commandBody(kind, { by, reason, choice }) {
-  const name = String(by ?? "").trim();
-  if (name === "") return { error: "Your name is needed: every command is recorded with who and when." };
-  if ([...name].length > NAME_MAX_CHARS) return { error: `The name is longer than ${NAME_MAX_CHARS} characters.` };
-  if (kind !== "shelve") return { body: { by: name } };
+export function commandBody(kind, { reason, choice }) {
+  if (kind !== "shelve") return { body: {} };
   const why = String(reason ?? "").trim();
   if (why === "") return { error: "A reason is needed to shelve: it is shown with the advisory and kept in the record." };
   if ([...why].length > REASON_MAX_CHARS) return { error: `The reason is longer than ${REASON_MAX_CHARS} characters.` };
   const c = SHELVE_CHOICES.find((x) => x.id === choice);
   if (c === undefined) return { error: "Choose how long to shelve it." };
-  return { body: c.oneShot ? { by: name, reason: why, oneShot: true } : { by: name, reason: why, durationS: c.durationS } };
+  return { body: c.oneShot ? { reason: why, oneShot: true } : { reason: why, durationS: c.durationS } };
 }
 
 /** "45 s", "3 min", "2 h", "2 h 05 min", "3 d 4 h"; whole units, rounded down. */
@@ -340,4 +337,107 @@ export function sparklineRuns(series, fromMs, toMs, width, height, minSpan = 0) 
   }
   if (run.length > 0) runs.push(run.join(" "));
   return { runs, min, max };
+}
+
+// ---- operating phase and the dew point summary ----
+
+/** Phase words as shown (our own names for the phases, DESIGN.md §3). */
+export const PHASE_WORDS = {
+  "standstill-empty": "standstill, empty",
+  "standstill-loaded": "standstill, coal inside",
+  "warm-up": "warm-up",
+  inerting: "inerting",
+  starting: "starting",
+  grinding: "grinding",
+  stopping: "stopping",
+  maintenance: "maintenance",
+  unknown: "unknown",
+};
+
+/**
+ * The phase in words and how long it has lasted, by the data time. A phase is context, not an
+ * abnormal state: it gets no colour (the hazard windows have their own advisories).
+ */
+export function phaseText(phase, nowMs) {
+  const word = PHASE_WORDS[phase.phase] ?? String(phase.phase);
+  const since = Number.isFinite(phase.sinceMs) && nowMs >= phase.sinceMs ? `for ${formatAge(nowMs - phase.sinceMs)}` : "";
+  return { word, since };
+}
+
+/**
+ * What the lowest dew point margin is doing: its trend and the shortest predicted time to
+ * condensation. JSON has no Infinity, so a time that is "not approaching" arrives as null: a
+ * known trend that is not falling says so; a falling trend without a time is left unknown.
+ */
+export function dewTrendText(summary) {
+  // "partial": some locations unknown; the lowest known margin still leads.
+  if (!summary || summary.status === "unknown" || summary.lowestMarginK === null) return null;
+  const trend = summary.lowestMarginTrendKPerMin;
+  if (trend === null || trend === undefined || !Number.isFinite(trend)) return { trend: "trend not known yet", time: null };
+  // The words follow the figure as shown: a trend that rounds to 0.00 is steady.
+  const shown = formatNumber(Math.abs(trend), 2);
+  const direction = Number(shown) === 0 ? "steady" : trend < 0 ? "falling" : "rising";
+  const trendText = `${direction} ${shown} K/min`;
+  if (trend >= 0) return { trend: trendText, time: "condensation not approaching" };
+  const t = summary.shortestTimeToCondensationS;
+  if (t === null || t === undefined || !Number.isFinite(t)) return { trend: trendText, time: null };
+  return { trend: trendText, time: `condensation in ${formatAge(t * 1000)} at this trend` };
+}
+
+/**
+ * When the feed itself has gone quiet (no message for quietMs on an open socket), values stop
+ * being live even though none is marked stale: on the data clock nothing advances without
+ * samples, and a half-open connection looks open. null while updates arrive.
+ */
+export function quietText(lastMessageAtMs, browserNowMs, quietMs) {
+  if (!(lastMessageAtMs > 0)) return null;
+  const silentMs = browserNowMs - lastMessageAtMs;
+  return silentMs >= quietMs ? `no update for ${formatAge(silentMs)}` : null;
+}
+
+/**
+ * The signals that need attention, grouped by what is wrong with them, in the order of the
+ * signal list: [{ problem: "no data 3 s", names: [...] }]. One line per problem reads at a
+ * glance where twenty repetitions of the same words would not.
+ */
+export function signalProblems(signals, nowMs) {
+  const groups = new Map();
+  for (const s of signals) {
+    const stale = staleText(s, nowMs);
+    const problem =
+      stale ??
+      (s.functionCheck
+        ? "function check"
+        : s.quality === "bad" || s.quality === "uncertain"
+          ? `${s.quality}${s.qualityReason ? ` (${s.qualityReason})` : ""}`
+          : null);
+    if (problem === null) continue;
+    if (!groups.has(problem)) groups.set(problem, []);
+    groups.get(problem).push(s.name);
+  }
+  return [...groups].map(([problem, names]) => ({ problem, names }));
+}
+
+/**
+ * The first reason of a list joined by "; ", with how many more there are (the rest is in the
+ * tooltip). A "; " inside parentheses belongs to its reason and does not split it.
+ */
+export function shortReason(reason) {
+  const text = String(reason ?? "");
+  const parts = [];
+  let depth = 0;
+  let start = 0;
+  for (let i = 0; i < text.length; i += 1) {
+    const c = text[i];
+    if (c === "(") depth += 1;
+    else if (c === ")") depth = Math.max(0, depth - 1);
+    else if (c === ";" && text[i + 1] === " " && depth === 0) {
+      parts.push(text.slice(start, i));
+      start = i + 2;
+    }
+  }
+  parts.push(text.slice(start));
+  const kept = parts.filter(Boolean);
+  if (kept.length <= 1) return kept[0] ?? "";
+  return `${kept[0]} (+${kept.length - 1} more)`;
 }

@@ -17,23 +17,32 @@ import {
   advisoryStateText,
   commandBody,
   createHistory,
+  dewTrendText,
   formatAge,
   formatClock,
   formatDateTime,
   formatNumber,
   formatSigned,
+  formatWhen,
   isHeld,
   lowestMargin,
   needsAttention,
   o2BarGeometry,
+  phaseText,
   pruneHistory,
+  quietText,
   readSeries,
   recordPoint,
+  shortReason,
+  signalProblems,
   sparklineRuns,
   splitAdvisories,
   staleText,
   worstTierFor,
 } from "./glance-model.js";
+import { askLogin, currentSession, initSession, onSessionChange, sendCommand } from "./session.js";
+import { commandAccess } from "./session-model.js";
+import { el, svg } from "./dom.js";
 
 const SPARK_WINDOW_MS = 15 * 60 * 1000;
 // Smallest vertical range of a CO sparkline: a few ppm of analyser noise should read as flat.
@@ -42,11 +51,9 @@ const SPARK_MIN_SPAN_PPM = 20;
 const history = createHistory(SPARK_WINDOW_MS, 1800);
 const RECONNECT_MIN_MS = 1000;
 const RECONNECT_MAX_MS = 30_000;
-const NAME_KEY = "millwarden.ackName";
 // The daemon pushes at least once a second while it runs; this long a silence on an
 // open socket is worth saying (a half-open connection looks "live" otherwise).
 const QUIET_WARN_MS = 20_000;
-const SVG_NS = "http://www.w3.org/2000/svg";
 
 /** @type {import("../src/core/types.js").PlantState | null} */
 let state = null;
@@ -67,28 +74,6 @@ function setText(node, text) {
 
 // ---- small DOM helpers ----
 
-function el(tag, props = {}, ...children) {
-  const node = document.createElement(tag);
-  for (const [key, value] of Object.entries(props)) {
-    if (value === null || value === undefined || value === false) continue;
-    if (key === "class") node.className = value;
-    else if (key === "text") node.textContent = value;
-    else node.setAttribute(key, value === true ? "" : String(value));
-  }
-  for (const child of children) if (child !== null && child !== undefined) node.append(child);
-  return node;
-}
-
-function svg(tag, attrs = {}, ...children) {
-  const node = document.createElementNS(SVG_NS, tag);
-  for (const [key, value] of Object.entries(attrs)) {
-    if (value === null || value === undefined) continue;
-    if (key === "text") node.textContent = value;
-    else node.setAttribute(key, String(value));
-  }
-  for (const child of children) if (child) node.append(child);
-  return node;
-}
 
 /** replaceChildren writes null as the text "null": leave the absent parts out. */
 const present = (...nodes) => nodes.filter((n) => n !== null && n !== undefined);
@@ -168,28 +153,10 @@ const ACTION_LABELS = { ack: "Acknowledge", reset: "Reset", shelve: "Shelve\u202
 const SUBMIT_LABELS = { ack: "Acknowledge", reset: "Reset", shelve: "Shelve", unshelve: "Unshelve" };
 let formCount = 0;
 
-function rememberedName() {
-  try {
-    return localStorage.getItem(NAME_KEY) ?? "";
-  } catch {
-    // Storage may be disabled; the name is then typed every time.
-    return "";
-  }
-}
-
-function rememberName(by) {
-  try {
-    localStorage.setItem(NAME_KEY, by);
-  } catch {
-    // See rememberedName.
-  }
-}
-
-/** One small form per row, for every command: who, and for a shelve why and how long. */
+/** One small form per row, for every command: for a shelve why and how long (who is the login's). */
 function createCommandForm(row) {
   formCount += 1;
   const n = formCount;
-  const name = el("input", { type: "text", id: `cmd-by-${n}`, maxlength: 64, autocomplete: "name", spellcheck: "false" });
   const reason = el("input", { type: "text", id: `cmd-reason-${n}`, maxlength: 500 });
   const choices = SHELVE_CHOICES.map((c) =>
     el("label", { class: "choice" }, el("input", { type: "radio", name: `cmd-for-${n}`, value: c.id }), ` ${c.label}`),
@@ -197,7 +164,6 @@ function createCommandForm(row) {
   const f = {
     node: null,
     what: el("p", { class: "cmd-what" }),
-    name,
     reason,
     reasonField: el("div", { class: "cmd-field" }, el("label", { for: reason.id, text: "Reason" }), reason),
     forField: el("fieldset", { class: "cmd-for" }, el("legend", { text: "Shelve for" }), el("div", { class: "choices" }, ...choices)),
@@ -210,7 +176,6 @@ function createCommandForm(row) {
     "form",
     { class: "cmd-form", hidden: true, novalidate: true },
     f.what,
-    el("div", { class: "cmd-field" }, el("label", { for: name.id, text: "Your name" }), name),
     f.reasonField,
     f.forField,
     el("div", { class: "cmd-buttons" }, f.submit, f.cancel),
@@ -230,15 +195,20 @@ function createCommandForm(row) {
 function openCommandForm(row, kind) {
   const f = row.form;
   const a = row.advisory;
+  const session = currentSession();
+  // Nobody logged in: the button asks for a login; the command is given after it.
+  if (commandAccess(session, kind) === "login") {
+    askLogin(`Log in to ${SUBMIT_LABELS[kind].toLowerCase()} \u201c${a.title}\u201d.`);
+    return;
+  }
   row.formKind = kind;
-  f.what.textContent = `${SUBMIT_LABELS[kind]} ${a.tier} \u201c${a.title}\u201d`;
+  f.what.textContent = `${SUBMIT_LABELS[kind]} ${a.tier} \u201c${a.title}\u201d as ${session.user}`;
   f.submit.textContent = SUBMIT_LABELS[kind];
   f.reasonField.hidden = kind !== "shelve";
   f.forField.hidden = kind !== "shelve";
   f.error.textContent = "";
-  if (f.name.value.trim() === "") f.name.value = rememberedName();
   f.node.hidden = false;
-  (f.name.value.trim() === "" ? f.name : kind === "shelve" ? f.reason : f.submit).focus();
+  (kind === "shelve" ? f.reason : f.submit).focus();
 }
 
 function closeCommandForm(row, returnFocus = false) {
@@ -257,7 +227,7 @@ async function submitCommand(row) {
   const kind = row.formKind;
   const a = row.advisory;
   if (kind === null) return;
-  const made = commandBody(kind, { by: f.name.value, reason: f.reason.value, choice: f.forField.querySelector("input:checked")?.value });
+  const made = commandBody(kind, { reason: f.reason.value, choice: f.forField.querySelector("input:checked")?.value });
   if (made.error) {
     f.error.textContent = made.error;
     return;
@@ -265,17 +235,13 @@ async function submitCommand(row) {
   f.submit.disabled = true;
   f.error.textContent = "";
   try {
-    const response = await fetch(`/api/advisories/${encodeURIComponent(a.id)}/${kind}`, {
-      method: "POST",
-      headers: { "content-type": "application/json" },
-      body: JSON.stringify(made.body),
-    });
+    const response = await sendCommand(`/api/advisories/${encodeURIComponent(a.id)}/${kind}`, made.body);
     const body = await response.json().catch(() => null);
     if (!response.ok) {
-      f.error.textContent = `Not done: ${body?.message ?? `the daemon answered HTTP ${response.status}`}`;
+      f.error.textContent =
+        response.status === 401 ? "Not done: your session has ended. Log in and give the command again." : `Not done: ${body?.message ?? `the daemon answered HTTP ${response.status}`}`;
       return;
     }
-    rememberName(made.body.by);
     closeCommandForm(row);
     // Show the result at once (null: back to normal, off the screen); the next delta confirms it.
     if (state) {
@@ -295,9 +261,11 @@ async function submitCommand(row) {
 
 function createAdvisoryRow(a) {
   const row = {
-    li: el("li", { class: "advisory" }),
+    li: el("li", { class: "advisory", "data-advisory-id": a.id }),
     iconKey: "",
     icon: null,
+    // The tier's word and the state's word on their own line, so the title gets the row's width.
+    tags: el("div", { class: "advisory-tags" }),
     title: el("div", { class: "advisory-title" }),
     age: el("div", { class: "advisory-age" }),
     detail: el("div", { class: "advisory-detail" }),
@@ -315,7 +283,7 @@ function createAdvisoryRow(a) {
     row.actions.append(button);
   }
   row.form = createCommandForm(row);
-  row.li.append(row.title, row.age, row.detail, row.stateText, row.actions, row.form.node);
+  row.li.append(row.tags, row.title, row.age, row.detail, row.stateText, row.actions, row.form.node);
   return row;
 }
 
@@ -336,14 +304,14 @@ function updateAdvisoryRow(row, a) {
     row.iconKey = iconKey;
   }
   const s = advisoryStateText(a, state ? state.nowMs : a.lastChangeMs);
-  row.title.replaceChildren(
+  row.tags.replaceChildren(
     ...present(
       el("span", { class: `tier-word word-${a.tier}`, text: a.tier }),
       s.word ? el("span", { class: "state-tag", text: s.word }) : null,
-      a.title,
       ...advisoryMarks(a).map((m) => el("span", { class: "mark", text: m })),
     ),
   );
+  setText(row.title, a.title);
   const ageText = state ? formatAge(state.nowMs - a.raisedAtMs) : "";
   setText(row.age, ageText);
   row.age.setAttribute("aria-label", `raised ${ageText} ago`);
@@ -359,8 +327,10 @@ function updateAdvisoryRow(row, a) {
   row.stateText.replaceChildren(...present(el("span", { text: s.text }), s.detail ? el("span", { class: "state-detail", text: s.detail }) : null));
   row.stateText.classList.toggle("is-acked", s.acked);
   const actions = advisoryActions(a);
+  const session = currentSession();
   for (const [kind, button] of Object.entries(row.buttons)) {
-    button.hidden = !actions.includes(kind);
+    // Not logged in: shown, and asking for a login; logged in without the role: not shown.
+    button.hidden = !actions.includes(kind) || commandAccess(session, kind) === "not-allowed";
     button.setAttribute("aria-label", `${SUBMIT_LABELS[kind]} ${a.tier}: ${a.title}`);
   }
 }
@@ -396,17 +366,27 @@ function renderAdvisories() {
   $("advisory-none").hidden = annunciated.length > 0;
   $("held-head").hidden = held.length === 0;
   setText($("held-count"), `\u00b7 ${held.length}`);
-  // A wall screen has nobody scrolling: say plainly how many advisories are out of view, and
-  // how many of those are warnings, so none is hidden by the size of the screen.
-  const box = $("advisory-scroll").getBoundingClientRect();
-  const below = [...advisoryRows.values()].map((r) => r.li).filter((li) => li.getBoundingClientRect().bottom > box.bottom + 1);
-  const warnings = below.filter((li) => li.classList.contains("tier-warning")).length;
-  const more = $("advisory-more");
-  more.hidden = below.length === 0 || box.height === 0;
-  const warningText = warnings === 0 ? "" : `, ${warnings} of them warning${warnings === 1 ? "" : "s"}`;
-  setText(more, `\u25bc ${below.length} more below${warningText} (scroll the list)`);
+  showOutOfView();
   const top = annunciated[0];
   document.title = top ? `(${annunciated.length}) ${top.tier}: ${top.title} · millwarden` : "millwarden · glance";
+}
+
+/**
+ * A wall screen has nobody scrolling: say plainly how many advisories are out of view, above
+ * (the list was scrolled, and the highest tier is at the top) and below, and how many of them
+ * are warnings, so none is hidden by the size of the screen or by an earlier scroll.
+ */
+function showOutOfView() {
+  const box = $("advisory-scroll").getBoundingClientRect();
+  const rows = [...advisoryRows.values()].map((r) => r.li);
+  const say = (node, lis, arrow, where) => {
+    const warnings = lis.filter((li) => li.classList.contains("tier-warning")).length;
+    node.hidden = lis.length === 0 || box.height === 0;
+    const warningText = warnings === 0 ? "" : `, ${warnings} of them warning${warnings === 1 ? "" : "s"}`;
+    setText(node, `${arrow} ${lis.length} more ${where}${warningText} (scroll the list)`);
+  };
+  say($("advisory-above"), rows.filter((li) => li.getBoundingClientRect().top < box.top - 1), "\u25b2", "above");
+  say($("advisory-more"), rows.filter((li) => li.getBoundingClientRect().bottom > box.bottom + 1), "\u25bc", "below");
 }
 
 // ---- inerting ----
@@ -450,7 +430,7 @@ function renderUnit(unit) {
     el("span", { class: "aside", text: `limit ${formatNumber(inv.limitPctVol, 1)} % ${inv.basis}`, title: inv.limitSource }),
     el("span", { class: "aside", text: inv.marginPctPt === null ? "margin \u2014" : `margin ${formatSigned(inv.marginPctPt, 1)} pt` }),
   );
-  const reason = inv.state !== "inert" ? el("span", { class: "reason", text: inv.reason }) : null;
+  const reason = inv.state !== "inert" ? el("span", { class: "reason", title: inv.reason, text: shortReason(inv.reason) }) : null;
   return el(
     "div",
     { class: "unit" },
@@ -501,8 +481,10 @@ function renderCo() {
     ...state.coPoints.map((p) => {
       const tier = worstTierFor(state.advisories, "co", p.id);
       const signal = signalById(p.signal);
-      const unknownReason = p.status === "unknown" ? p.reason || "unknown" : null;
-      const gradientReason = unknownReason ?? (p.gradientPpmPerMin === null ? p.reason || "rate not yet computable" : null);
+      // The level is shown whenever it is known; a rate that cannot be computed yet (a window
+      // filling) does not make the level unknown.
+      const unknownReason = p.coPpm === null ? p.reason || "unknown" : null;
+      const gradientReason = unknownReason ?? (p.gradientPpmPerMin === null || p.status === "unknown" ? p.reason || "rate not yet computable" : null);
       const inCheck = signal?.functionCheck ? el("span", { class: "tier-word", text: "function check" }) : null;
       return el(
         "div",
@@ -521,7 +503,10 @@ function renderCo() {
           valueCell({ value: p.coPpm, digits: 0, unit: "ppm", signal, unknownReason }),
           unknownReason ? null : valueCell({ value: p.gradientPpmPerMin, digits: 1, unit: "ppm/min", unknownReason: gradientReason, signed: true, cls: "value rate" }),
         ),
-        unknownReason ? el("span", { class: "reason co-reason", text: unknownReason }) : null,
+        // A stale signal already says "no data N s" in place of its figure.
+        (unknownReason ?? gradientReason) && staleText(signal, state.nowMs) === null
+          ? el("span", { class: "reason co-reason", title: unknownReason ?? gradientReason, text: shortReason(unknownReason ?? `rate: ${gradientReason}`) })
+          : null,
         sparkline(p),
       );
     }),
@@ -533,9 +518,23 @@ function renderCo() {
 function renderDew() {
   const lowest = lowestMargin(state.dewPoints);
   $("dew-lowest").replaceChildren(
+    el("span", { class: "dew-label", text: "Lowest margin" }),
     lowest === null
-      ? el("span", { text: "Lowest margin: unknown at every location" })
-      : el("span", {}, "Lowest margin: ", el("strong", { text: lowest.name }), " ", el("span", { class: "value", text: formatNumber(lowest.marginK, 1) }), " K"),
+      ? el("span", { class: "dew-where", text: "unknown at every location" })
+      : el(
+          "span",
+          { class: "dew-figure" },
+          el("span", { class: "value", text: formatNumber(lowest.marginK, 1) }),
+          el("span", { class: "unit-sym", text: " K" }),
+          el("span", { class: "dew-where" }, " at ", el("strong", { text: lowest.name })),
+        ),
+  );
+  const trend = dewTrendText(state.dewPointSummary?.[0]);
+  $("dew-trend").replaceChildren(
+    ...present(
+      trend ? el("span", { text: trend.trend }) : null,
+      trend?.time ? el("span", { class: "dew-time", text: ` \u00b7 ${trend.time}` }) : null,
+    ),
   );
   $("dew-rows").replaceChildren(
     ...state.dewPoints.map((p) => {
@@ -552,7 +551,7 @@ function renderDew() {
           p.name,
           isLowest ? el("span", { class: "lowest-tag", text: "lowest" }) : null,
           tier ? el("span", { class: `tier-word word-${tier}`, text: tier }) : null,
-          unknownReason ? el("span", { class: "reason", text: unknownReason }) : null,
+          unknownReason ? el("span", { class: "reason", title: unknownReason, text: shortReason(unknownReason) }) : null,
         ),
         el("td", {}, valueCell({ value: p.gasTempC, digits: 1 })),
         el("td", {}, valueCell({ value: p.dewPointC, digits: 1, unknownReason: p.dewPointC === null ? unknownReason ?? "not computable" : null })),
@@ -562,25 +561,44 @@ function renderDew() {
   );
 }
 
+// ---- operating phase ----
+
+function renderPhases() {
+  const phases = state.phases ?? [];
+  $("phase-list").replaceChildren(
+    ...phases.map((p) => {
+      const t = phaseText(p, state.nowMs);
+      return el(
+        "span",
+        { class: `phase phase-${p.phase}`, title: `${unitName(p.unitId)}: ${p.reason}` },
+        // The unit's short id keeps the header on one line; its full name is in the tooltip.
+        el("span", { class: "phase-unit", text: p.unitId.toUpperCase() }),
+        " ",
+        el("span", { class: "phase-word", text: t.word }),
+        t.since ? el("span", { class: "phase-since", text: ` ${t.since}` }) : null,
+      );
+    }),
+  );
+}
+
 // ---- data health ----
 
 function renderDataHealth() {
-  const problems = [];
-  for (const s of state.signals) {
-    const stale = staleText(s, state.nowMs);
-    if (stale !== null) problems.push(`${s.name}: ${stale}`);
-    else if (s.functionCheck) problems.push(`${s.name}: function check`);
-    else if (s.quality === "bad") problems.push(`${s.name}: bad${s.qualityReason ? ` (${s.qualityReason})` : ""}`);
-    else if (s.quality === "uncertain") problems.push(`${s.name}: uncertain${s.qualityReason ? ` (${s.qualityReason})` : ""}`);
-  }
+  const groups = signalProblems(state.signals, state.nowMs);
   const node = $("data-health");
-  if (problems.length === 0) {
+  if (groups.length === 0) {
     node.replaceChildren(`All ${state.signals.length} signals fresh and good.`);
     return;
   }
+  const count = groups.reduce((n, g) => n + g.names.length, 0);
+  const all = count === state.signals.length;
   node.replaceChildren(
-    el("span", { class: "problem", text: `${problems.length} of ${state.signals.length} signals need attention: ` }),
-    problems.join(" \u00b7 "),
+    el("span", { class: "problem", text: `${count} of ${state.signals.length} signals need attention: ` }),
+    ...groups.flatMap((g, i) => [
+      i > 0 ? " \u00b7 " : null,
+      el("strong", { text: g.problem }),
+      all && groups.length === 1 ? " (every signal)" : `: ${g.names.join(", ")}`,
+    ]).filter((x) => x !== null),
   );
 }
 
@@ -591,14 +609,20 @@ function renderConnection() {
   const text = $("conn-text");
   const lost = connection === "lost";
   conn.classList.toggle("is-lost", lost);
-  document.body.classList.toggle("is-offline", lost);
-  const quietS = connection === "live" && lastMessageAtMs > 0 ? Math.floor((Date.now() - lastMessageAtMs) / 1000) : 0;
-  const quiet = quietS * 1000 >= QUIET_WARN_MS;
-  conn.classList.toggle("is-quiet", quiet);
-  setText(text, connection === "live" ? (quiet ? `live \u00b7 no update for ${formatAge(quietS * 1000)}` : "live") : lost ? "connection lost" : "connecting");
+  const quiet = connection === "live" ? quietText(lastMessageAtMs, Date.now(), QUIET_WARN_MS) : null;
+  conn.classList.toggle("is-quiet", quiet !== null);
+  // A feed that has gone silent freezes the values as surely as a lost connection.
+  document.body.classList.toggle("is-offline", lost || quiet !== null);
+  setText(text, connection === "live" ? (quiet !== null ? `live \u00b7 ${quiet}` : "live") : lost ? "connection lost" : "connecting");
   const strip = $("conn-lost");
-  strip.hidden = !lost;
+  strip.hidden = !lost && quiet === null;
+  if (quiet !== null) {
+    setText($("conn-lost-title"), "No updates");
+    const since = state ? `values as of ${formatClock(state.nowMs)} data time` : "no data received yet";
+    setText($("conn-lost-text"), `\u2014 the daemon has sent nothing: ${quiet} \u00b7 ${since}`);
+  }
   if (lost) {
+    setText($("conn-lost-title"), "Connection lost");
     const since = state ? `values frozen since ${formatClock(state.nowMs)}` : "no data received yet";
     const wait = Math.max(0, Math.ceil((reconnectAtMs - Date.now()) / 1000));
     setText($("conn-lost-text"), `\u2014 ${since} \u00b7 ${wait > 0 ? `reconnecting in ${wait} s` : "reconnecting"}`);
@@ -613,13 +637,24 @@ function render() {
   if (state.advisoryOnly) $("advisory-only").textContent = state.advisoryOnly;
   $("site-name").textContent = state.site.name;
   $("plant-name").textContent = state.site.plant;
-  $("data-time").textContent = formatDateTime(state.nowMs);
+  // The clock alone while the data is within 12 h of the browser's clock (the header stays one
+  // line); the date too when it is not (a replay, an accelerated demo), and always in the tooltip.
+  setText($("data-time"), formatWhen(state.nowMs, Date.now()));
+  $("data-time").title = formatDateTime(state.nowMs);
+  renderPhases();
   renderAdvisories();
   renderUnits();
   renderCo();
   renderDew();
   renderDataHealth();
+  // First values on screen, for bench/glance.ts (a standard User Timing mark, read by nobody else).
+  if (!firstRenderMarked) {
+    firstRenderMarked = true;
+    performance.mark("millwarden:first-values");
+  }
 }
+
+let firstRenderMarked = false;
 
 function recordHistory() {
   for (const p of state.coPoints) {
@@ -704,6 +739,8 @@ function connect() {
   socket.addEventListener("close", () => scheduleReconnect());
 }
 
+$("advisory-scroll").addEventListener("scroll", showOutOfView, { passive: true });
+
 // Connection hints (countdown, quiet feed) change with the browser clock, not with data.
 setInterval(renderConnection, 1000);
 
@@ -713,10 +750,42 @@ function scheduleReconnect() {
   const delay = Math.min(RECONNECT_MAX_MS, Math.max(RECONNECT_MIN_MS, reconnectDelayMs * (0.85 + Math.random() * 0.3)));
   reconnectDelayMs = Math.min(RECONNECT_MAX_MS, reconnectDelayMs * 2);
   reconnectAtMs = Date.now() + delay;
-  setTimeout(connect, delay);
+  clearTimeout(reconnectTimer);
+  reconnectTimer = setTimeout(connect, delay);
   render();
 }
 
-void resync();
-connect();
+let reconnectTimer = 0;
+
+/** Reconnect now instead of at the scheduled time (after a login). */
+function reconnectNow() {
+  clearTimeout(reconnectTimer);
+  reconnectDelayMs = RECONNECT_MIN_MS;
+  connect();
+  void resync();
+}
+
+let started = false;
+
+/** The first fetch of the state and the live feed. */
+function start() {
+  if (started) return;
+  started = true;
+  void resync();
+  connect();
+}
+
+// A login (or a logout) changes which buttons are shown. Where the views need a login, the
+// feed starts with it (or, refused until now, reconnects at once).
+onSessionChange((session) => {
+  if (session.user && !started) start();
+  else if (session.user && connection === "lost") reconnectNow();
+  render();
+});
+
+// Ask who is logged in first: where the views need a login, connecting before it would only be refused.
+void initSession().then(() => {
+  const session = currentSession();
+  if (!session.requireLoginForViews || session.user) start();
+});
 render();

@@ -1,9 +1,11 @@
 #!/usr/bin/env node
 // millwarden command line: parses arguments and calls the parts; no logic of its own.
+import { createHash } from "node:crypto";
+import { readFileSync } from "node:fs";
 import { parseArgs } from "node:util";
 import { resolve } from "node:path";
 import { fileURLToPath } from "node:url";
-import { ConfigError, loadConfig } from "../config/load.js";
+import { ConfigError, loadConfig, parseConfig } from "../config/load.js";
 import type { MillwardenConfig } from "../config/schema.js";
 import { Daemon } from "../daemon/daemon.js";
 import { startEmbeddedBroker } from "../daemon/embedded-broker.js";
@@ -13,6 +15,7 @@ import { runSimulator } from "../sim/publish.js";
 import { scenarioNames } from "../sim/plant.js";
 import { summarizeConfig } from "./summary.js";
 import { replayCommand } from "./replay.js";
+import { UserCommandError, userCommand } from "./user.js";
 
 const ROOT = resolve(fileURLToPath(import.meta.url), "../../..");
 export const DEMO_CONFIG = resolve(ROOT, "config/demo.yaml");
@@ -30,6 +33,9 @@ usage:
                                                 history (CSV or historian) through the core: events and the alarm-management summary
   millwarden pki list|show [--pki DIR]          OPC UA certificates: trusted and rejected servers, our own
   millwarden pki trust FILE [--pki DIR]         trust a server certificate (compare its thumbprint first)
+  millwarden user add NAME --role viewer|operator|engineer|admin --config FILE
+  millwarden user list|passwd NAME|remove NAME --config FILE
+                                                local accounts; the password is asked for (not shown) or read from stdin
 
 ${ADVISORY_ONLY}`;
 
@@ -55,11 +61,24 @@ function requireConfig(path: string | undefined): MillwardenConfig {
   return loadConfig(path);
 }
 
+/** The config parsed from the very bytes whose SHA-256 goes into the audit log. */
+function configWithHash(path: string | undefined): { cfg: MillwardenConfig; configFile: { path: string; sha256: string } } {
+  if (!path) throw new UsageError("--config FILE is required");
+  let bytes: Buffer;
+  try {
+    bytes = readFileSync(path);
+  } catch (e) {
+    throw new ConfigError([{ file: path, line: 1, column: 1, key: "", message: `cannot read the file: ${(e as Error).message}` }]);
+  }
+  const cfg = parseConfig(bytes.toString("utf8"), path);
+  return { cfg, configFile: { path: resolve(path), sha256: createHash("sha256").update(bytes).digest("hex") } };
+}
+
 async function cmdRun(args: string[]): Promise<number> {
   const { values } = parseArgs({ args, options: { config: { type: "string" }, log: { type: "string", default: "json" } } });
-  const cfg = requireConfig(values.config);
+  const { cfg, configFile } = configWithHash(values.config);
   const log = makeLogger(values.log === "text" ? "text" : "json");
-  const daemon = await Daemon.start({ config: cfg, log });
+  const daemon = await Daemon.start({ config: cfg, log, configFile });
   const sig = await waitForSignal();
   log.info(`${sig}: stopping`);
   await daemon.stop();
@@ -92,7 +111,9 @@ async function cmdDemo(args: string[]): Promise<number> {
     storage: { ...base.storage, path: resolve(values.data, "millwarden.db") },
     server: { ...base.server, port: num(values.port, "port", base.server.port) },
   };
-  const daemon = await Daemon.start({ config: cfg, log });
+  // The demo runs demo.yaml with its source, storage and port replaced; the record names the file it started from.
+  const configFile = { path: DEMO_CONFIG, sha256: createHash("sha256").update(readFileSync(DEMO_CONFIG)).digest("hex") };
+  const daemon = await Daemon.start({ config: cfg, log, configFile });
   process.stdout.write(
     `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
       `  ${plant.describe}\n  database              ${cfg.storage.path}\n  dashboard             ${daemon.url}\n` +
@@ -303,6 +324,8 @@ export async function main(argv: string[]): Promise<number> {
         return await cmdExport(rest);
       case "replay":
         return await replayCommand(rest);
+      case "user":
+        return await userCommand(rest);
       case undefined:
       case "help":
       case "--help":
@@ -313,6 +336,10 @@ export async function main(argv: string[]): Promise<number> {
         throw new UsageError(`unknown command "${cmd}"`);
     }
   } catch (e) {
+    if (e instanceof UserCommandError) {
+      process.stderr.write(`millwarden user: ${e.message}\n`);
+      return 1;
+    }
     if (e instanceof ConfigError) {
       process.stderr.write(`config errors:\n${e.message}\n`);
       return 1;

@@ -10,6 +10,7 @@ import { checkOxygen } from "./sections/oxygen.js";
 import { checkDewPoints } from "./sections/dew-point.js";
 import { checkCo } from "./sections/co.js";
 import { checkPhase } from "./sections/phase.js";
+import { checkNotifications } from "./sections/notifications.js";
 import { checkAnalysers } from "./sections/analysers.js";
 
 export interface ConfigProblem {
@@ -160,6 +161,7 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   checkCo(cfg, ctx);
   checkPhase(cfg, ctx);
   checkAnalysers(cfg, ctx);
+  checkNotifications(cfg, ctx);
 
   const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
   const states = new Map(stateKeys(cfg).map((k) => [k.key, k]));

@@ -11,29 +11,87 @@ import { coSection } from "./sections/co.js";
 import { oxygenSchema } from "./sections/oxygen.js";
 import { phaseSchema } from "./sections/phase.js";
 import { analysersSection } from "./sections/analysers.js";
+import { notificationsSchema } from "./sections/notifications.js";
 
-const mqttSource = z.strictObject({
-  id,
-  kind: z.literal("mqtt"),
-  url: z.string().regex(/^(mqtt|mqtts|ws|wss):\/\//, "expected an mqtt://, mqtts://, ws:// or wss:// URL"),
-  protocolVersion: z.union([z.literal(4), z.literal(5)]).default(4),
-  clientId: z.string().min(1).optional(),
-  username: z.string().optional(),
-  /** Read from this environment variable, never written in the file. */
-  passwordEnv: z.string().optional(),
-  qos: z.union([z.literal(0), z.literal(1)]).default(0),
-  /** How each message body is read. */
-  payload: z
-    .strictObject({
-      format: z.enum(["json", "number"]).default("json"),
-      valuePath: z.string().min(1).default("value"),
-      timePath: z.string().min(1).optional(),
-      qualityPath: z.string().min(1).optional(),
-    })
-    .default({ format: "json", valuePath: "value" }),
-  /** A payload time further ahead of the box's clock than this is rejected. */
-  maxClockSkewS: positive.default(30),
-});
+/** An MQTT topic filter: + stands for one whole level, # for the whole rest (last level only). */
+const topicFilter = z
+  .string()
+  .min(1)
+  .refine((f) => !f.includes("\u0000") && f.split("/").every((l, i, all) => (l.includes("+") ? l === "+" : true) && (l.includes("#") ? l === "#" && i === all.length - 1 : true)), {
+    message: "expected an MQTT topic filter: + only as a whole level, # only as the whole last level (e.g. tarnholm/cg2/# or spBv1.0/cg2/+/edge-vm2)",
+  });
+
+const mqttSource = z
+  .strictObject({
+    id,
+    kind: z.literal("mqtt"),
+    url: z.string().regex(/^(mqtt|mqtts|ws|wss):\/\//, "expected an mqtt://, mqtts://, ws:// or wss:// URL"),
+    /** 4: MQTT 3.1.1, 5: MQTT 5. */
+    protocolVersion: z.union([z.literal(4), z.literal(5)]).default(4),
+    clientId: z.string().min(1).optional(),
+    /**
+     * false: a persistent session, so QoS 1 messages published during a short outage are kept by
+     * the broker and delivered after the reconnection. Needs a fixed clientId. Default true.
+     */
+    clean: z.boolean().optional(),
+    /** MQTT 5: how long the broker keeps the session after a disconnection (default 3600 with clean: false, else 0). */
+    sessionExpiryIntervalS: z.number().int().min(0).max(4294967295).optional(),
+    username: z.string().optional(),
+    /** Read from this environment variable, never written in the file. */
+    passwordEnv: z.string().optional(),
+    qos: z.union([z.literal(0), z.literal(1)]).default(0),
+    /** TLS (mqtts:// or wss://): PEM files, read at start. */
+    tls: z
+      .strictObject({
+        /** CA certificate(s) the broker's certificate must chain to; the system's CAs when absent. */
+        ca: z.string().min(1).optional(),
+        /** Client certificate and its key, for a broker that asks for one. */
+        cert: z.string().min(1).optional(),
+        key: z.string().min(1).optional(),
+        /** false accepts any broker certificate: for a bench only, warned about in the log. */
+        rejectUnauthorized: z.boolean().default(true),
+        /** Name the broker's certificate must carry, when it differs from the URL's host. */
+        servername: z.string().min(1).optional(),
+      })
+      .refine((t) => (t.cert === undefined) === (t.key === undefined), { message: "cert and key go together (a client certificate and its private key)", path: ["key"] })
+      .optional(),
+    /**
+     * Topic filters to subscribe to instead of one subscription per signal topic; messages are
+     * still routed to signals by their exact topic, and the unmatched ones are only counted.
+     */
+    subscribe: z.array(topicFilter).min(1).optional(),
+    /** How each message body is read; `payload: sparkplug` is short for `{ format: sparkplug }`. */
+    payload: z
+      .preprocess(
+        (v) => (v === "sparkplug" ? { format: "sparkplug" } : v),
+        z.strictObject({
+          /** sparkplug: every message is Sparkplug B (on a JSON source, spBv1.0/ topics are read so for the signals with sparkplug:). */
+          format: z.enum(["json", "number", "sparkplug"]).default("json"),
+          valuePath: z.string().min(1).default("value"),
+          timePath: z.string().min(1).optional(),
+          qualityPath: z.string().min(1).optional(),
+        }),
+      )
+      .default({ format: "json", valuePath: "value" }),
+    /** A payload time further ahead of the box's clock than this is rejected. */
+    maxClockSkewS: positive.default(30),
+  })
+  .refine((s) => s.clean !== false || s.clientId !== undefined, {
+    message: "clean: false (a persistent session) needs a fixed clientId: the broker keeps the session under that name",
+    path: ["clientId"],
+  })
+  .refine((s) => s.sessionExpiryIntervalS === undefined || s.protocolVersion === 5, {
+    message: "sessionExpiryIntervalS is an MQTT 5 setting: expected protocolVersion: 5 (with MQTT 3.1.1 the broker decides how long a session lives)",
+    path: ["sessionExpiryIntervalS"],
+  })
+  .refine((s) => s.tls === undefined || /^(mqtts|wss):\/\//.test(s.url), {
+    message: "tls: needs an mqtts:// or wss:// url",
+    path: ["url"],
+  })
+  .refine((s) => s.passwordEnv === undefined || s.username !== undefined, {
+    message: "passwordEnv needs a username (MQTT sends a password only with a user name)",
+    path: ["username"],
+  });
 
 /**
  * An OPC UA server, read only: millwarden subscribes and reads, it never writes or calls
@@ -70,13 +128,31 @@ const opcuaSource = z
     path: ["passwordEnv"],
   });
 
+/** A Sparkplug B identifier (group, edge node, device): a topic level, so no / + or #. */
+const sparkplugId = z.string().regex(/^[^/+#]+$/, "expected a Sparkplug B id: one topic level, without / + or #");
+
 const signal = z.strictObject({
   id,
   name: text,
   /** The plant's own tag name (ISA-5.1 letters with site prefix); mapped, never parsed. */
   tag: text,
   source: id,
-  topic: z.string().min(1).optional(),
+  /** Exact topic; wildcards belong in the source's subscribe:. Derived for a Sparkplug signal. */
+  topic: z
+    .string()
+    .min(1)
+    .regex(/^[^+#]+$/, "a signal's topic is exact, without + or #: put a wildcard filter under the source's subscribe:")
+    .optional(),
+  /**
+   * Sparkplug B metric: group id, edge node id, device id (absent for the edge node's own
+   * metrics) and the metric name as in the birth message (folders with /).
+   */
+  sparkplug: z.strictObject({ group: sparkplugId, node: sparkplugId, device: sparkplugId.optional(), metric: z.string().min(1) }).optional(),
+  /**
+   * JSON path of a flag in the value's own message: true (or 1, "true", "on", "yes") means the
+   * analyser is in function check (NAMUR NE 107 category C), so the value is not trusted.
+   */
+  functionCheckPath: z.string().min(1).optional(),
   /** OPC UA node id (signals of an opcua source), e.g. "ns=1;s=VM2-TT-111" or "nsu=urn:...;s=...". */
   nodeId: z
     .string()
@@ -100,7 +176,16 @@ const signal = z.strictObject({
   basis: z.enum(["wet", "dry"]).optional(),
   /** Id of the analyser it comes from, declared under analysers: (its health decides trust). */
   analyser: id.optional(),
-});
+})
+  .refine((s) => !(s.sparkplug && s.topic), { message: "a Sparkplug signal is found by sparkplug: (group, node, device, metric): leave out topic:", path: ["topic"] })
+  .refine((s) => !(s.sparkplug && (s.functionCheckPath || s.valuePath)), { message: "valuePath and functionCheckPath read a JSON message; a Sparkplug signal takes its value from its metric", path: ["sparkplug"] })
+  // A Sparkplug signal's topic is where its data arrive (NDATA, or DDATA for a device): it names
+  // the signal's topic in messages and meets the rule that an MQTT signal has a topic.
+  .transform((s) => {
+    const sp = s.sparkplug;
+    if (!sp || s.topic) return s;
+    return { ...s, topic: sp.device === undefined ? `spBv1.0/${sp.group}/NDATA/${sp.node}` : `spBv1.0/${sp.group}/DDATA/${sp.node}/${sp.device}` };
+  });
 
 const unit = z.strictObject({
   id,
@@ -206,8 +291,13 @@ export const configSchema = z.strictObject({
     })
     .default({ path: "data/millwarden.db", synchronous: "NORMAL", rawRetentionDays: 30, rollupRetentionDays: 365, sealIntervalS: 300, warmStartMaxS: 6 * 3600 }),
   server: z
-    .strictObject({ host: z.string().min(1).default("127.0.0.1"), port: z.number().int().min(0).max(65535).default(8480) })
-    .default({ host: "127.0.0.1", port: 8480 }),
+    .strictObject({
+      host: z.string().min(1).default("127.0.0.1"),
+      port: z.number().int().min(0).max(65535).default(8480),
+      /** The read-only views (state, advisories, trends, health, live feed) need a login too; commands always do. */
+      requireLoginForViews: z.boolean().default(false),
+    })
+    .default({ host: "127.0.0.1", port: 8480, requireLoginForViews: false }),
   sources: z.array(z.discriminatedUnion("kind", [mqttSource, opcuaSource])).min(1),
   signals: z.array(signal).min(1),
   units: z.array(unit).min(1),
@@ -216,6 +306,8 @@ export const configSchema = z.strictObject({
   ...analysersSection,
   advisoryPolicy,
   rules: z.array(rule).default([]),
+  /** Reaching the on-call engineer (src/config/sections/notifications.ts); none when absent. */
+  notifications: notificationsSchema.optional(),
 });
 
 export type MillwardenConfig = z.infer<typeof configSchema>;

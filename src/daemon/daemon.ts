@@ -14,6 +14,7 @@ import type { MillwardenConfig } from "../config/schema.js";
 import { DataClock, Engine } from "../core/engine.js";
 import type { AdvisoryTransition, Command, CoreEvent, Sample } from "../core/types.js";
 import { ADVISORY_ONLY } from "../core/types.js";
+import type { AuditInput } from "../store/accounts.js";
 import { Historian } from "../store/historian.js";
 import { historianInput } from "../replay/input.js";
 import { daemonMetrics } from "./metrics.js";
@@ -23,6 +24,7 @@ import { ChangeFeed } from "./change-feed.js";
 import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
 import { startServer } from "../server/listen.js";
 import type { Logger } from "./log.js";
+import { NotifyService } from "../notify/service.js";
 
 /** The history a warm start needs: the longest window the config uses, at least an hour. */
 export function warmStartSpanS(cfg: MillwardenConfig): number {
@@ -49,18 +51,25 @@ export interface DaemonOptions {
   serve?: boolean;
   /** Base folder for a relative storage path (default: the working folder). */
   baseDir?: string;
+  /** The config file as read: its path and the SHA-256 of its bytes go into the audit log at start. */
+  configFile?: { path: string; sha256: string };
 }
 
 export class Daemon {
-  readonly engine: Engine;
+  /** Replaced only on the data clock when the data turns out older than the stored history (see ingest). */
+  engine: Engine;
   readonly historian: Historian;
   readonly feed: ChangeFeed;
+  /** Notifications (outbox → channels), when the config has a notifications: section. */
+  readonly notify: NotifyService | null;
   private readonly metrics: Registry;
   sources: Source[] = [];
   url: string | null = null;
   private server: { close(): Promise<void> } | null = null;
   private timer: NodeJS.Timeout | null = null;
-  private readonly dataClock: DataClock | null;
+  private dataClock: DataClock | null;
+  /** Data clock: where the warm start ended, until the first sample says whether the data goes on from there. */
+  private warmEndMs: number | null = null;
   private readonly now: () => number;
   private readonly startedAtMs: number;
   private lastTickMs = 0;
@@ -84,6 +93,9 @@ export class Daemon {
     });
     if (this.historian.migrationBackup) opts.log.info(`historian migrated to a newer schema; the file as it was is kept in ${this.historian.migrationBackup}`);
     this.feed = new ChangeFeed(() => this.engine.snapshot());
+    this.notify = cfg.notifications
+      ? NotifyService.create({ config: cfg, historianPath: this.historian.path, baseDir: opts.baseDir, log: opts.log, now: this.now, advisories: () => this.engine.currentAdvisories() })
+      : null;
     const positions = [...new Set(cfg.rules.map((r) => r.position))].sort();
     this.metrics = daemonMetrics({
       sources: () => this.sources.map((s) => s.stats()),
@@ -120,8 +132,10 @@ export class Daemon {
     this.sources = await this.makeSources();
     this.warmStart();
     this.restoreAdvisories();
+    this.auditConfigLoaded();
     this.historian.start();
     this.feed.start();
+    this.notify?.start();
     if (!this.dataClock) {
       this.tick(this.now());
       this.timer = setInterval(() => this.tick(this.now()), 1000);
@@ -130,7 +144,7 @@ export class Daemon {
     }
     for (const s of this.sources) await s.start((sample) => this.ingest(sample));
     if (this.opts.serve !== false) {
-      const srv = await startServer(this.appDeps(), { host: cfg.server.host, port: cfg.server.port });
+      const srv = await startServer(this.appDeps(), { host: cfg.server.host, port: cfg.server.port, auth: { requireLoginForViews: cfg.server.requireLoginForViews } });
       this.server = srv;
       this.url = srv.url;
       log.info(`dashboard at ${srv.url}`);
@@ -165,8 +179,32 @@ export class Daemon {
     }
     this.lastTickMs = Math.floor(lastMs / 1000) * 1000;
     // On the data clock the next sample continues from here; live, the wall clock takes over.
-    if (this.dataClock) this.dataClock.due(lastMs);
+    // On the data clock the first sample decides (ingest): data going on from here continues this
+    // state; older data (a replay of another day into the same file) starts the core afresh.
+    if (this.dataClock) this.warmEndMs = lastMs;
     this.opts.log.info(`warm start: ${n} stored samples of the last ${Math.round(spanS / 60)} min up to ${new Date(lastMs).toISOString()} refilled the windows and baselines`);
+  }
+
+  /** Which configuration ran from when is on record: the file's SHA-256 at every start. */
+  private auditConfigLoaded(): void {
+    const cfg = this.opts.config;
+    const f = this.opts.configFile;
+    this.audit({
+      atMs: this.now(),
+      actor: "daemon",
+      action: "config.loaded",
+      target: f?.path ?? null,
+      detail: { sha256: f?.sha256 ?? null, site: cfg.site.name, signals: cfg.signals.length, rules: cfg.rules.length, requireLoginForViews: cfg.server.requireLoginForViews },
+      source: "daemon",
+    });
+  }
+
+  /** One audit entry, also as a log line (without its detail); a failure to write is logged, never thrown. */
+  private audit(e: AuditInput): string | null {
+    const err = this.historian.accounts().appendAudit(e);
+    this.opts.log.info(`audit: ${e.action} by ${e.actor}${e.target === null ? "" : ` on ${e.target}`} (${e.source})`);
+    if (err !== null) this.opts.log.warn(err);
+    return err;
   }
 
   /**
@@ -197,6 +235,7 @@ export class Daemon {
       if (sample.quality === "bad" && sample.sourceTimeMs === sample.receiveTimeMs && this.lastTickMs && sample.qualityReason) {
         sample.sourceTimeMs = sample.receiveTimeMs = this.lastTickMs;
       } else sample.receiveTimeMs = sample.sourceTimeMs;
+      if (this.warmEndMs !== null) this.continueOrRestart(sample.sourceTimeMs);
       for (const t of this.dataClock.due(sample.sourceTimeMs)) this.tick(t);
     }
     const outcome = this.engine.ingest(sample);
@@ -204,10 +243,28 @@ export class Daemon {
     else this.rejectedByCore[outcome] = (this.rejectedByCore[outcome] ?? 0) + 1;
   }
 
+  /** Data clock, first sample after a warm start: go on from the stored state, or start afresh before it. */
+  private continueOrRestart(firstMs: number): void {
+    const endMs = this.warmEndMs!;
+    this.warmEndMs = null;
+    if (firstMs >= endMs) {
+      this.dataClock!.due(endMs);
+      return;
+    }
+    this.opts.log.warn(
+      `the data (from ${new Date(firstMs).toISOString()}) is older than the stored history (up to ${new Date(endMs).toISOString()}): ` +
+        "the core starts afresh, without the warm start and the restored advisory states",
+    );
+    this.engine = new Engine(this.opts.config);
+    this.dataClock = new DataClock();
+    this.lastTickMs = 0;
+  }
+
   tick(nowMs: number): void {
     this.lastTickMs = nowMs;
     const events = this.engine.tick(nowMs);
     this.record(events);
+    this.notify?.tick(nowMs);
     // On the data clock, retention and sealing follow the data's own time (a replay of last
     // month must not be pruned as if it were old); live, a timer does it.
     if (this.dataClock && (this.lastMaintainMs === null || nowMs - this.lastMaintainMs >= MAINTAIN_EVERY_MS)) this.maintain(nowMs);
@@ -240,6 +297,7 @@ export class Daemon {
       if (err) this.opts.log.warn(`advisory states not saved (a restart would judge them afresh): ${err}`);
     }
     this.feed.changed(transitions);
+    this.notify?.record(events, this.lastTickMs);
   }
 
   health(): HealthView {
@@ -256,6 +314,7 @@ export class Daemon {
       nowMs: this.lastTickMs,
       sources,
       historian: { state: h.state, queueDepth: h.queueDepth, rowsWritten: h.rowsWritten, lastError: h.lastError },
+      ...(this.notify ? { notifications: this.notify.health() } : {}),
     };
   }
 
@@ -270,7 +329,9 @@ export class Daemon {
       },
       command: (advisoryId, kind, body) => {
         const atMs = this.dataClock ? this.lastTickMs : this.now();
-        const base = { advisoryId, by: body.by, atMs, ...(body.role ? { role: body.role } : {}) };
+        // The server has checked the account's role; the core knows operator and engineer, and an admin acts as engineer.
+        if (body.role === "viewer") return { ok: false, status: 403, error: `${kind} of advisory "${advisoryId}" needs the operator role or above; "${body.by}" is a viewer` };
+        const base = { advisoryId, by: body.by, atMs, role: body.role === "admin" || body.role === "engineer" ? ("engineer" as const) : ("operator" as const) };
         const cmd: Command =
           kind === "ack" || kind === "reset"
             ? { ...base, kind, ...(body.note !== undefined ? { note: body.note } : {}) }
@@ -291,6 +352,11 @@ export class Daemon {
       },
       subscribe: (l) => this.feed.subscribe(l),
       dashboardDir: DASHBOARD_DIR,
+      accounts: {
+        findUser: (name) => this.historian.accounts().findUser(name),
+        auditLog: (limit) => this.historian.accounts().auditLog(limit),
+        appendAudit: (e) => this.audit(e),
+      },
       metrics: async () => ({ contentType: this.metrics.contentType, body: await this.metrics.metrics() }),
     };
   }
@@ -303,6 +369,7 @@ export class Daemon {
     this.feed.stop();
     if (this.server) await this.server.close();
     this.server = null;
+    await this.notify?.stop();
     this.historian.close();
   }
 }

@@ -2,21 +2,34 @@
 // with inject(); listen.ts binds it to a port. The server keeps no plant state: every
 // route reads through AppDeps.
 //
+//   POST /api/login {user,password} session cookie + {user, role, csrfToken}     (auth.ts)
+//   POST /api/logout, GET /api/session, GET /api/audit?limit=N (engineer, admin)   (auth.ts)
 //   GET  /api/health               deps.health()          200 ok / 503 degraded
 //   GET  /api/state                deps.getState()
 //   GET  /api/advisories?limit=N   deps.advisories()
 //   POST /api/advisories/:id/<command>   deps.command()  200 {advisory} (null once normal);
 //        command: ack | reset | shelve | unshelve | out-of-service | return-to-service
+//        who and in what role: the login session's (operator; engineer for out of service)
 //        the daemon's 400 BAD_COMMAND / 403 FORBIDDEN / 404 ADVISORY_NOT_FOUND / 409 ADVISORY_CONFLICT
 //        pass through; another name is 404 UNKNOWN_COMMAND
 //   GET  /api/trend?signal&from&to&points deps.trend()
 //   WS   /api/live                 snapshot, then deps.subscribe() messages (live.ts)
+//   GET  /vendor/uplot/uPlot.esm.js, uPlot.min.css   the trends page's plotting library
 //   GET  /*                        files from deps.dashboardDir
+//
+// Every request passes the gate of auth.ts first: a POST (but login) needs a session and its
+// X-CSRF-Token (401 / 403); the views need a session only with server.requireLoginForViews.
+// Security headers come from helmet, with a Content-Security-Policy that allows the dashboard's
+// own files only (it has no inline script or style).
 import { existsSync } from "node:fs";
-import { join } from "node:path";
+import { createRequire } from "node:module";
+import { dirname, join } from "node:path";
+import fastifyCookie from "@fastify/cookie";
+import helmet from "@fastify/helmet";
 import fastifyStatic from "@fastify/static";
 import websocket from "@fastify/websocket";
 import Fastify, { type FastifyError, type FastifyInstance, type FastifyReply } from "fastify";
+import { COMMAND_ROLE, registerAuth, type AuthOptions } from "./auth.js";
 import { UnknownSeriesError, type AppDeps } from "./deps.js";
 import { ApiError, describeFound, type ApiErrorBody, type ApiErrorCode } from "./errors.js";
 import { LiveHub, type LiveHubOptions } from "./live.js";
@@ -34,6 +47,14 @@ export interface BuildAppOptions {
   /** Passed to fastify: false (default) for tests, true or a pino options object in the daemon. */
   logger?: boolean | object;
   live?: LiveHubOptions;
+  /** Logins and sessions: requireLoginForViews (server.requireLoginForViews), clock, lockout. */
+  auth?: AuthOptions;
+  /**
+   * Behind a TLS-terminating proxy: take the client's address and protocol from its
+   * X-Forwarded-* headers (the session cookie is then Secure). Never on a box reachable directly:
+   * anyone could then claim any address and walk around the per-address lockout.
+   */
+  trustProxy?: boolean;
 }
 
 /** GET /api/trend answers with compact tuples: [tMs, value, quality]. */
@@ -47,6 +68,9 @@ export interface TrendResponse {
 
 type Query = Record<string, string | string[] | undefined>;
 
+/** GET /vendor/uplot/<file>: the files the trends page loads (node_modules/uplot/dist). */
+const UPLOT_FILES = new Set(["/uPlot.esm.js", "/uPlot.min.css"]);
+
 /** The daemon's refusals of a command, by status. */
 const COMMAND_ERRORS = {
   400: "BAD_COMMAND",
@@ -55,32 +79,49 @@ const COMMAND_ERRORS = {
   409: "ADVISORY_CONFLICT",
 } as const satisfies Record<400 | 403 | 404 | 409, ApiErrorCode>;
 
-// Security headers until a full helmet setup arrives with login. The dashboard loads
-// only its own files, so everything else (framing included) is refused.
-const SECURITY_HEADERS: Record<string, string> = {
+// The dashboard loads only its own files (scripts as modules, one stylesheet, a data: icon)
+// and talks to its own origin ('self' covers ws: and wss: there, CSP Level 3 §6.7.2.5);
+// everything else, framing included, is refused.
+const CSP_DIRECTIVES: Record<string, string[]> = {
+  "default-src": ["'self'"],
+  "script-src": ["'self'"],
+  "script-src-attr": ["'none'"],
+  "style-src": ["'self'"],
+  "img-src": ["'self'", "data:"],
+  "connect-src": ["'self'"],
+  "object-src": ["'none'"],
+  "base-uri": ["'none'"],
+  "form-action": ["'self'"],
+  "frame-ancestors": ["'none'"],
+};
+const CSP = Object.entries(CSP_DIRECTIVES)
+  .map(([k, v]) => `${k} ${v.join(" ")}`)
+  .join("; ");
+
+// Router errors (bad URL encoding, an over-long parameter) are answered before any hook runs,
+// helmet's included: they get the essential headers here.
+const FALLBACK_HEADERS: Record<string, string> = {
   "x-content-type-options": "nosniff",
   "x-frame-options": "DENY",
-  "content-security-policy":
-    "default-src 'self'; connect-src 'self'; img-src 'self' data:; object-src 'none'; " +
-    "base-uri 'none'; form-action 'self'; frame-ancestors 'none'",
+  "content-security-policy": CSP,
   "referrer-policy": "no-referrer",
   "cross-origin-opener-policy": "same-origin",
 };
 
-function setSecurityHeaders(reply: FastifyReply): void {
-  for (const [name, value] of Object.entries(SECURITY_HEADERS)) reply.header(name, value);
-}
-
 function sendError(reply: FastifyReply, status: number, code: ApiErrorCode, message: string): FastifyReply {
   const body: ApiErrorBody = { error: code, message };
-  // Set here too: router errors (frameworkErrors) are answered before any onSend hook exists.
-  setSecurityHeaders(reply);
   return reply.code(status).type("application/json; charset=utf-8").send(body);
+}
+
+function sendRouterError(reply: FastifyReply, status: number, code: ApiErrorCode, message: string): FastifyReply {
+  for (const [name, value] of Object.entries(FALLBACK_HEADERS)) reply.header(name, value);
+  return sendError(reply, status, code, message);
 }
 
 export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promise<FastifyInstance> {
   const app = Fastify({
     logger: opts.logger ?? false,
+    trustProxy: opts.trustProxy ?? false,
     // The only bodies are commands on an advisory (a name and a note or reason of at most 500 characters).
     bodyLimit: 16 * 1024,
     // Longer than any advisory id we accept, so params.ts gives the precise message.
@@ -88,15 +129,24 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     // Errors the router raises before any route runs get the same JSON body.
     frameworkErrors: (err, request, reply) => {
       if (err.code === "FST_ERR_MAX_PARAM_LENGTH") {
-        return sendError(reply, 400, "BAD_PARAM", `path parameter: expected at most 200 characters, found a longer one in ${request.method} ${request.url.slice(0, 80)}…`);
+        return sendRouterError(reply, 400, "BAD_PARAM", `path parameter: expected at most 200 characters, found a longer one in ${request.method} ${request.url.slice(0, 80)}…`);
       }
-      return sendError(reply, 400, "BAD_REQUEST", `request URL: expected valid percent-encoding, found ${describeFound(request.url)}`);
+      return sendRouterError(reply, 400, "BAD_REQUEST", `request URL: expected valid percent-encoding, found ${describeFound(request.url)}`);
     },
   });
   const hub = new LiveHub(deps, app.log, opts.live);
 
+  await app.register(helmet, {
+    contentSecurityPolicy: { useDefaults: false, directives: CSP_DIRECTIVES },
+    frameguard: { action: "deny" },
+    referrerPolicy: { policy: "no-referrer" },
+    // Strict-Transport-Security is the TLS terminator's to send: over plain HTTP it means
+    // nothing, and on a self-signed box it would make a certificate warning impossible to pass.
+    strictTransportSecurity: false,
+  });
+  await app.register(fastifyCookie);
+
   app.addHook("onSend", async (request, reply, payload) => {
-    setSecurityHeaders(reply);
     // Plant data must never be served from a cache after the fact.
     if (request.url.startsWith("/api/")) reply.header("cache-control", "no-store");
     return payload;
@@ -137,7 +187,7 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
       "NOT_FOUND",
       `${request.method} ${request.url.split("?")[0]}: no such route or file` +
         (request.url.startsWith("/api/")
-          ? `; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/<command> (POST; command: ${ADVISORY_COMMANDS.join(", ")}), /api/trend, /api/live`
+          ? `; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/<command> (POST; command: ${ADVISORY_COMMANDS.join(", ")}), /api/trend, /api/live, /api/login (POST), /api/logout (POST), /api/session, /api/audit`
           : ""),
     ),
   );
@@ -151,6 +201,10 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
       app.websocketServer.close();
     },
   });
+
+  // After the websocket plugin: its own onRequest hook must have marked an upgrade request
+  // before the gate can refuse it, or the refused socket is never closed.
+  const auth = registerAuth(app, deps.accounts, opts.auth);
 
   app.get("/api/health", async (request, reply) => {
     rejectUnknown(request.query as Query, []);
@@ -176,16 +230,24 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     return deps.advisories({ limit });
   });
 
-  // Commands on an advisory, all timed by the daemon (never by the client). Until logins exist
-  // the role is declared in the body ("role": "engineer" for out-of-service and
-  // return-to-service) and taken at its word: it keeps an operator from a mistake, it does not
-  // keep anyone out. The path, the id and the content type are checked before the body is read.
+  // Commands on an advisory, all timed by the daemon (never by the client). Who gives them and
+  // in what role come from the session (the gate has checked it and its CSRF token); the path,
+  // the role and the content type are checked before the body is read. Each command is written
+  // to the audit log with its outcome, refusals by role included.
   app.post<{ Params: { id: string; command: string } }>(
     "/api/advisories/:id/:command",
     {
       onRequest: async (request) => {
-        parseCommandName(request.params.command);
-        parseAdvisoryId(request.params.id);
+        const kind = parseCommandName(request.params.command);
+        const id = parseAdvisoryId(request.params.id);
+        const session = auth.requireSession(request);
+        const needed = COMMAND_ROLE[kind];
+        try {
+          auth.requireRole(session, needed, `${kind} of advisory "${id}"`);
+        } catch (err) {
+          auth.audit(request, { actor: session.user, action: `advisory.${kind}`, target: id, detail: { role: session.role, outcome: "forbidden", needed } });
+          throw err;
+        }
         // Only JSON: a text/plain POST is a "simple" cross-site request a browser sends without asking.
         const contentType = request.headers["content-type"] ?? "";
         if (!/^application\/json\s*(;|$)/i.test(contentType)) {
@@ -199,8 +261,19 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     async (request, reply) => {
       const kind = parseCommandName(request.params.command);
       const id = parseAdvisoryId(request.params.id);
-      const body = parseCommandBody(kind, request.body);
-      const result = deps.command(id, kind, body);
+      const session = auth.requireSession(request);
+      const fields = parseCommandBody(kind, request.body);
+      const result = deps.command(id, kind, { ...fields, by: session.user, role: session.role });
+      auth.audit(request, {
+        actor: session.user,
+        action: `advisory.${kind}`,
+        target: id,
+        detail: {
+          role: session.role,
+          ...fields,
+          ...(result.ok ? { outcome: "ok" } : { outcome: "refused", status: result.status, error: result.error }),
+        },
+      });
       if (result.ok) return reply.code(200).send({ advisory: result.advisory });
       return sendError(reply, result.status, COMMAND_ERRORS[result.status], result.error);
     },
@@ -227,7 +300,10 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     url: "/api/live",
     handler: async (_request, reply) =>
       sendError(reply, 426, "UPGRADE_REQUIRED", "GET /api/live: expected a WebSocket upgrade request, found a plain HTTP request"),
-    wsHandler: (socket) => hub.add(socket),
+    wsHandler: (socket, request) => {
+      auth.trackSocket(request, socket);
+      hub.add(socket);
+    },
   });
 
   // The API works without the dashboard, so a missing folder is a warning, not a failure.
@@ -239,6 +315,15 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
     prefix: "/",
     index: ["index.html"],
     // Revalidate every time: after an upgrade the browser must not mix old and new files.
+    maxAge: 0,
+  });
+  // The trends page's plotting library, served from the installed package (nothing from outside
+  // the box); only its ES module and its stylesheet.
+  await app.register(fastifyStatic, {
+    root: dirname(createRequire(import.meta.url).resolve("uplot")),
+    prefix: "/vendor/uplot/",
+    decorateReply: false,
+    allowedPath: (pathName) => UPLOT_FILES.has(pathName),
     maxAge: 0,
   });
 

@@ -1,7 +1,8 @@
 // What the HTTP server needs from the daemon. The server holds no plant state of its
 // own: it reads through these functions, so tests can hand it a small in-memory
 // implementation and the daemon hands it the live one.
-import type { AdvisoryTransition, AdvisoryView, CommandKind, LiveMessage, PlantState, Quality, Role } from "../core/types.js";
+import type { AdvisoryTransition, AdvisoryView, CommandKind, LiveMessage, PlantState, Quality } from "../core/types.js";
+import type { AccountRole, AccountStore } from "../store/accounts.js";
 
 export interface TrendPoint {
   tMs: number;
@@ -19,6 +20,33 @@ export interface HealthView {
   nowMs: number;
   sources: { id: string; kind: string; connected: boolean; samples: number; rejected: number; lastError: string | null }[];
   historian: { state: "ok" | "degraded"; queueDepth: number; rowsWritten: number; lastError: string | null };
+  /** Present when notifications are configured (src/notify/service.ts); a failing channel does not make the status degraded. */
+  notifications?: NotificationsHealth;
+}
+
+/** The notification channels: each one's last success and failure, and what waits in the outbox. */
+export interface NotificationsHealth {
+  status: "ok" | "failing";
+  channels: {
+    id: string;
+    kind: string;
+    /** failing: the last attempt failed (or the channel cannot be used); idle: nothing tried yet. */
+    state: "ok" | "failing" | "idle";
+    lastSuccessMs: number | null;
+    lastFailureMs: number | null;
+    /** Never holds a secret. */
+    lastError: string | null;
+    /** Entries waiting for a first or a further attempt. */
+    pending: number;
+    /** Entries given up on. */
+    dead: number;
+  }[];
+  /** Advisories whose on-call chain is running (escalation, reminders). */
+  escalating: number;
+  /** The outbox could not take messages at the last attempt. */
+  outboxError: string | null;
+  /** The Web Push VAPID public key browsers subscribe with (null without a Web Push channel). */
+  vapidPublicKey: string | null;
 }
 
 export type AckResult =
@@ -26,8 +54,7 @@ export type AckResult =
   | { ok: false; status: 400 | 403 | 404 | 409; error: string };
 
 /** What a person sends with a command on an advisory (POST /api/advisories/:id/<command>). */
-export interface AdvisoryCommandBody {
-  by: string;
+export interface AdvisoryCommandFields {
   /** ack, reset: an optional note. */
   note?: string;
   /** shelve, out-of-service (required); unshelve, return-to-service (optional). */
@@ -36,16 +63,27 @@ export interface AdvisoryCommandBody {
   durationS?: number;
   /** shelve: until the condition clears (within the maximum). */
   oneShot?: boolean;
-  /** Until logins exist, the role is taken as declared; out-of-service needs "engineer". */
-  role?: Role;
 }
+
+/** A command as the server hands it on: the body's fields, with who and in what role from the login session. */
+export interface AdvisoryCommandBody extends AdvisoryCommandFields {
+  by: string;
+  role: AccountRole;
+}
+
+/** The accounts and the audit log (src/store/accounts.ts): what the login and the records need. */
+export type AccountsPort = Pick<AccountStore, "findUser" | "appendAudit" | "auditLog">;
 
 export interface AppDeps {
   getState(): PlantState;
   health(): HealthView;
   /** Current advisories, and the latest transitions from the historian (newest first). */
   advisories(opts: { limit: number }): { active: AdvisoryView[]; history: AdvisoryTransition[] };
-  /** A command on an advisory, timed by the daemon; the result carries the advisory as it is now (null once normal). */
+  /**
+   * A command on an advisory, timed by the daemon; the result carries the advisory as it is now
+   * (null once normal). The server has checked the role already; the daemon maps it onto the
+   * core's roles (admin acts as engineer).
+   */
   command(advisoryId: string, kind: CommandKind, body: AdvisoryCommandBody): AckResult;
   /** Raw signal ids and derived keys both, about `points` points; throws UnknownSeriesError for anything else. */
   trend(series: string, fromMs: number, toMs: number, points: number): TrendPoint[];
@@ -55,6 +93,8 @@ export interface AppDeps {
   dashboardDir: string;
   /** GET /metrics: the Prometheus text exposition format and its content type (absent: 404). */
   metrics?(): Promise<{ contentType: string; body: string }>;
+  /** Accounts for the login, and the audit log every login, logout and command is written to. */
+  accounts: AccountsPort;
 }
 
 export class UnknownSeriesError extends Error {

@@ -21,7 +21,15 @@ export const API_ERRORS = {
     doc: "The path names no advisory command; the commands are ack, reset, shelve, unshelve, out-of-service and return-to-service.",
   },
   BAD_COMMAND: { status: 400, doc: "The daemon refused the command as given (e.g. a shelve longer than the site's advisoryPolicy.maxShelveS)." },
-  FORBIDDEN: { status: 403, doc: "The declared role may not give this command (out of service and return to service need the engineer role)." },
+  FORBIDDEN: {
+    status: 403,
+    doc: "The session's role may not do this: commands need operator, out of service and return to service engineer, the audit log engineer or admin.",
+  },
+  UNAUTHENTICATED: { status: 401, doc: "No login session, or it has ended (expired, logged out, the account changed): log in with POST /api/login." },
+  CSRF_REJECTED: { status: 403, doc: "A state-changing request without the X-CSRF-Token header, or with one that is not the session's token." },
+  LOGIN_FAILED: { status: 401, doc: "The user name or the password was not accepted (the answer does not say which)." },
+  LOGIN_LOCKED: { status: 429, doc: "Too many failed logins for this user or from this address: logins are refused until Retry-After seconds have passed." },
+  LOGIN_BUSY: { status: 503, doc: "Too many logins are being checked at this moment; try again in a second (Retry-After)." },
   UNKNOWN_SERIES: { status: 404, doc: "The trend series is neither a signal id nor a derived key." },
   INTERNAL: { status: 500, doc: "Unexpected failure inside the server; details are in the server log only." },
 } as const satisfies Record<string, { status: number; doc: string }>;

@@ -1,15 +1,14 @@
 // Parsing and validation of what clients send. Pure functions: the current time is an
 // argument, so the trend defaults are deterministic. Each failure throws an ApiError
 // naming the parameter, what was expected and what was found.
-import type { CommandKind, Role } from "../core/types.js";
-import type { AdvisoryCommandBody } from "./deps.js";
+import type { CommandKind } from "../core/types.js";
+import type { AdvisoryCommandFields } from "./deps.js";
 import { ApiError, describeFound } from "./errors.js";
 
 export const ADVISORY_LIMIT_DEFAULT = 100;
 export const ADVISORY_LIMIT_MAX = 1000;
 export const TREND_DEFAULT_SPAN_MS = 60 * 60 * 1000;
 export const TREND_MAX_SPAN_MS = 31 * 24 * 60 * 60 * 1000;
-export const ACK_BY_MAX_CHARS = 64;
 export const ACK_NOTE_MAX_CHARS = 500;
 /** A shelve's or an out-of-service's reason, as long as a note. */
 export const REASON_MAX_CHARS = 500;
@@ -166,11 +165,6 @@ export function parseTrendQuery(query: Record<string, QueryValue>, nowMs: () => 
   return { signal, fromMs, toMs, points };
 }
 
-export interface AckBody {
-  by: string;
-  note?: string;
-}
-
 // Control characters would corrupt the audit trail's one-line records.
 // eslint-disable-next-line no-control-regex
 const CONTROL_CHARS = /[\u0000-\u001f\u007f-\u009f]/;
@@ -180,9 +174,7 @@ const charCount = (s: string): number => [...s].length;
 
 interface CommandSpec {
   /** The body fields the command accepts; anything else is refused (a typo would lose it silently). */
-  fields: readonly (keyof AdvisoryCommandBody)[];
-  /** "the person ..." in the message about "by". */
-  doing: string;
+  fields: readonly (keyof AdvisoryCommandFields)[];
   /** When the command needs a reason: what the reason says. */
   reasonFor?: string;
   example: string;
@@ -190,32 +182,21 @@ interface CommandSpec {
 
 /**
  * The commands on an advisory (POST /api/advisories/:id/<command>) and the body each takes.
- * The shape is checked here; whether the advisory's state allows the command, the role and
- * the site's longest shelve are the daemon's to decide (its 400/403/404/409 pass through).
+ * The shape is checked here; whether the advisory's state allows the command and the site's
+ * longest shelve are the daemon's to decide (its 400/403/404/409 pass through). Who gives the
+ * command and in what role come from the login session, never from the body.
  */
 const COMMANDS: Record<CommandKind, CommandSpec> = {
-  ack: { fields: ["by", "note"], doing: "acknowledging", example: '{"by": "A. Operator", "note": "..."}' },
-  reset: { fields: ["by", "note"], doing: "resetting the latched advisory", example: '{"by": "A. Operator", "note": "..."}' },
-  shelve: {
-    fields: ["by", "reason", "durationS", "oneShot"],
-    doing: "shelving",
-    reasonFor: "why the advisory is shelved",
-    example: '{"by": "A. Operator", "reason": "...", "durationS": 3600}',
-  },
-  unshelve: { fields: ["by", "reason"], doing: "unshelving", example: '{"by": "A. Operator"}' },
-  "out-of-service": {
-    fields: ["by", "reason", "role"],
-    doing: "taking the advisory out of service",
-    reasonFor: "why the advisory is taken out of service",
-    example: '{"by": "A. Engineer", "reason": "...", "role": "engineer"}',
-  },
-  "return-to-service": { fields: ["by", "reason", "role"], doing: "returning the advisory to service", example: '{"by": "A. Engineer", "role": "engineer"}' },
+  ack: { fields: ["note"], example: '{"note": "..."}' },
+  reset: { fields: ["note"], example: '{"note": "..."}' },
+  shelve: { fields: ["reason", "durationS", "oneShot"], reasonFor: "why the advisory is shelved", example: '{"reason": "...", "durationS": 3600}' },
+  unshelve: { fields: ["reason"], example: '{"reason": "..."}' },
+  "out-of-service": { fields: ["reason"], reasonFor: "why the advisory is taken out of service", example: '{"reason": "..."}' },
+  "return-to-service": { fields: ["reason"], example: '{"reason": "..."}' },
 };
 
 /** The six command names, in the order the API documents them. */
 export const ADVISORY_COMMANDS = Object.keys(COMMANDS) as CommandKind[];
-
-const ROLES: readonly Role[] = ["operator", "engineer"];
 
 /** '"a"', '"a" and "b"', '"a", "b" and "c"'. */
 function quotedList(names: readonly string[]): string {
@@ -257,40 +238,32 @@ function textField(name: string, raw: unknown, opts: { required: string | null; 
 
 /**
  * The body of a command on an advisory. Each failure names the field, what was expected and
- * what was found. Until logins exist, "role" is taken as the client declares it.
+ * what was found. "by" and "role" are refused: they come from the login session, and a body
+ * that names someone else must not look as if it were accepted.
  */
-export function parseCommandBody(kind: CommandKind, body: unknown): AdvisoryCommandBody {
+export function parseCommandBody(kind: CommandKind, body: unknown): AdvisoryCommandFields {
   const spec = COMMANDS[kind];
   if (body === null || typeof body !== "object" || Array.isArray(body)) {
     throw new ApiError("BAD_BODY", `request body for ${kind}: expected a JSON object such as ${spec.example}, found ${describeFound(body)}`);
   }
   const record = body as Record<string, unknown>;
+  for (const field of ["by", "role"] as const) {
+    if (Object.hasOwn(record, field)) {
+      throw new ApiError(
+        "BAD_BODY",
+        `request body field "${field}": not accepted; who gives a command and in what role come from the login session (POST /api/login), expected only ${quotedList(spec.fields)}`,
+      );
+    }
+  }
   // Refusing unknown fields catches typos ("notes") that would silently lose the text.
   const unknown = Object.keys(record).filter((k) => !(spec.fields as readonly string[]).includes(k));
   if (unknown.length > 0) {
     throw new ApiError(
       "BAD_BODY",
-      `request body for ${kind}: expected only the fields ${quotedList(spec.fields)}, found ${unknown.map((k) => `"${k.slice(0, 40)}"`).join(", ")}`,
+      `request body for ${kind}: expected only the field${spec.fields.length > 1 ? "s" : ""} ${quotedList(spec.fields)}, found ${unknown.map((k) => `"${k.slice(0, 40)}"`).join(", ")}`,
     );
   }
-  const by = record["by"];
-  if (typeof by !== "string") {
-    throw new ApiError(
-      "BAD_BODY",
-      `request body field "by": expected the name of the person ${spec.doing} (a string of 1 to ${ACK_BY_MAX_CHARS} characters), found ${describeFound(by)}`,
-    );
-  }
-  const byTrimmed = by.trim();
-  if (byTrimmed === "" || charCount(byTrimmed) > ACK_BY_MAX_CHARS || CONTROL_CHARS.test(byTrimmed)) {
-    const what = CONTROL_CHARS.test(byTrimmed)
-      ? "a control character"
-      : `${charCount(byTrimmed)} characters after trimming spaces`;
-    throw new ApiError(
-      "BAD_BODY",
-      `request body field "by": expected 1 to ${ACK_BY_MAX_CHARS} printable characters, found ${what}`,
-    );
-  }
-  const out: AdvisoryCommandBody = { by: byTrimmed };
+  const out: AdvisoryCommandFields = {};
 
   // A note may span lines (as it always could); a reason is one line of the audit trail.
   const note = textField("note", record["note"], { required: null, controlChars: false });
@@ -321,23 +294,50 @@ export function parseCommandBody(kind: CommandKind, body: unknown): AdvisoryComm
       `request body for shelve: expected "durationS" (whole seconds) or "oneShot": true, found ${out.oneShot === false ? '"oneShot": false and no "durationS"' : "neither"}`,
     );
   }
-  const role = record["role"];
-  if (role !== undefined) {
-    if (typeof role !== "string" || !(ROLES as readonly string[]).includes(role)) {
-      throw new ApiError(
-        "BAD_BODY",
-        `request body field "role": expected ${quotedList(ROLES).replace(" and ", " or ")} (declared by the client until logins exist), found ${describeFound(role)}`,
-      );
-    }
-    out.role = role as Role;
-  }
   return out;
 }
 
-/** The body of an acknowledgement: {by, note?}. */
-export function parseAckBody(body: unknown): AckBody {
-  const { by, note } = parseCommandBody("ack", body);
-  return note === undefined ? { by } : { by, note };
+export interface LoginBody {
+  user: string;
+  password: string;
+}
+
+/**
+ * POST /api/login {user, password}. The messages name the field and never repeat what was
+ * sent: a password typed into the wrong field must not come back in an answer or a log.
+ */
+export function parseLoginBody(body: unknown): LoginBody {
+  if (body === null || typeof body !== "object" || Array.isArray(body)) {
+    throw new ApiError("BAD_BODY", `request body for login: expected a JSON object {"user": "...", "password": "..."}, found ${Array.isArray(body) ? "an array" : body === null ? "null" : typeof body}`);
+  }
+  const record = body as Record<string, unknown>;
+  const unknown = Object.keys(record).filter((k) => k !== "user" && k !== "password");
+  if (unknown.length > 0) {
+    throw new ApiError("BAD_BODY", `request body for login: expected only the fields "user" and "password", found ${unknown.length} other field${unknown.length > 1 ? "s" : ""}`);
+  }
+  const { user, password } = record;
+  if (typeof user !== "string" || user.length === 0 || user.length > 64) {
+    throw new ApiError("BAD_BODY", `request body field "user": expected an account name of 1 to 64 characters, found ${typeof user === "string" ? `${user.length} characters` : user === undefined ? "nothing" : typeof user}`);
+  }
+  if (typeof password !== "string" || password.length === 0 || password.length > 1024) {
+    throw new ApiError("BAD_BODY", `request body field "password": expected a string of 1 to 1024 characters, found ${typeof password === "string" ? `${password.length} characters` : password === undefined ? "nothing" : typeof password}`);
+  }
+  return { user, password };
+}
+
+export const AUDIT_LIMIT_DEFAULT = 100;
+export const AUDIT_LIMIT_MAX = 1000;
+
+/** GET /api/audit?limit=N. */
+export function parseAuditQuery(query: Record<string, QueryValue>): { limit: number } {
+  rejectUnknown(query, ["limit"]);
+  const text = single("limit", query["limit"]);
+  if (text === undefined) return { limit: AUDIT_LIMIT_DEFAULT };
+  const n = /^\d{1,7}$/.test(text) ? Number(text) : Number.NaN;
+  if (!Number.isInteger(n) || n < 1 || n > AUDIT_LIMIT_MAX) {
+    throw new ApiError("BAD_QUERY", `query parameter "limit": expected an integer from 1 to ${AUDIT_LIMIT_MAX}, found ${describeFound(text)}`);
+  }
+  return { limit: n };
 }
 
 /** Advisory ids are rule ids (plus an instance): short printable text. */

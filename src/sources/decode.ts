@@ -1,6 +1,9 @@
 // Turning a message body into samples of the signals mapped to its topic. Pure:
 // the receive time is an argument. Bad input never throws; it becomes a bad-quality
 // sample with a reason, so the signal shows bad rather than keeping its last value.
+// A signal's functionCheckPath reads an analyser's function-check flag from the same
+// message, so the sample carries it (Sample.functionCheck) with its value.
+// Sparkplug B bodies (protobuf, topics under spBv1.0/) are read by sparkplug.ts instead.
 import type { SignalConfig, SourceConfig } from "../config/schema.js";
 import { unitDef } from "../config/units.js";
 import type { Quality, Sample } from "../core/types.js";
@@ -11,7 +14,9 @@ export type RejectReason =
   | "not-a-number"
   | "bad-time"
   | "time-in-future"
-  | "too-large";
+  | "too-large"
+  /** Sparkplug B: a metric of a type that is not a number (String, DataSet, Template, arrays, ...). */
+  | "unsupported-type";
 
 export interface Decoded {
   sample: Sample;
@@ -47,6 +52,24 @@ function parseQuality(raw: unknown): Quality | null {
   return raw === "good" || raw === "uncertain" || raw === "bad" ? raw : null;
 }
 
+/**
+ * A function-check flag: true, a non-zero number or "true"/"1"/"on"/"yes" means in function
+ * check; absent, null, false, 0 or "false"/"0"/"off"/"no"/"" means not. Anything else is null:
+ * the flag cannot be read, and the value is then not trusted either (uncertain) rather than
+ * guessed either way (a wrong "in check" would suppress advisories by design).
+ */
+export function parseFunctionCheckFlag(raw: unknown): boolean | null {
+  if (raw === undefined || raw === null) return false;
+  if (typeof raw === "boolean") return raw;
+  if (typeof raw === "number") return Number.isFinite(raw) ? raw !== 0 : null;
+  if (typeof raw === "string") {
+    const w = raw.trim().toLowerCase();
+    if (w === "true" || w === "1" || w === "on" || w === "yes") return true;
+    if (w === "false" || w === "0" || w === "off" || w === "no" || w === "") return false;
+  }
+  return null;
+}
+
 export interface SignalDecoder {
   signal: SignalConfig;
   decode(payload: Buffer | string, parsed: unknown, parseError: string | null, receiveTimeMs: number): Decoded;
@@ -67,6 +90,7 @@ export function parseBody(payload: Buffer | string, format: "json" | "number"): 
 export function makeDecoder(signal: SignalConfig, source: SourceConfig): SignalDecoder {
   const p = source.payload;
   const valuePath = signal.valuePath ?? p.valuePath;
+  const checkPath = signal.functionCheckPath;
   const toCanonical = unitDef(signal.unit).toCanonical;
   const skewMs = source.maxClockSkewS * 1000;
 
@@ -84,11 +108,14 @@ export function makeDecoder(signal: SignalConfig, source: SourceConfig): SignalD
       let raw: unknown;
       let time: unknown;
       let quality: unknown;
+      let inCheck: boolean | null = false;
+      let checkRaw: unknown;
       if (p.format === "number") raw = parsed;
       else {
         raw = getPath(parsed, valuePath);
         if (p.timePath) time = getPath(parsed, p.timePath);
         if (p.qualityPath) quality = getPath(parsed, p.qualityPath);
+        if (checkPath) inCheck = parseFunctionCheckFlag((checkRaw = getPath(parsed, checkPath)));
       }
       if (raw === undefined || raw === null) return bad(receiveTimeMs, "no-value", `no value at "${valuePath}"`);
       // Numbers as strings are accepted only when the whole string is a number.
@@ -101,7 +128,9 @@ export function makeDecoder(signal: SignalConfig, source: SourceConfig): SignalD
         if (t - receiveTimeMs > skewMs) return bad(receiveTimeMs, "time-in-future", `time ${new Date(t).toISOString()} is more than ${source.maxClockSkewS} s ahead of the box's clock`);
         sourceTimeMs = t;
       }
-      const q = quality === undefined ? "good" : parseQuality(quality) ?? "uncertain";
+      let q = quality === undefined ? "good" : parseQuality(quality) ?? "uncertain";
+      const flagUnreadable = inCheck === null && q === "good";
+      if (flagUnreadable) q = "uncertain";
       const sample: Sample = {
         signal: signal.id,
         value: toCanonical(num * signal.scale + signal.offset),
@@ -109,7 +138,9 @@ export function makeDecoder(signal: SignalConfig, source: SourceConfig): SignalD
         sourceTimeMs,
         receiveTimeMs,
       };
-      if (q !== "good") sample.qualityReason = quality === undefined ? "" : `payload quality ${JSON.stringify(quality).slice(0, 20)}`;
+      if (flagUnreadable) sample.qualityReason = `function check flag at "${checkPath}" is ${JSON.stringify(checkRaw).slice(0, 40)}, expected true/false or 1/0`;
+      else if (q !== "good") sample.qualityReason = quality === undefined ? "" : `payload quality ${JSON.stringify(quality).slice(0, 20)}`;
+      if (inCheck === true) sample.functionCheck = true;
       return { sample };
     },
   };

@@ -37,6 +37,7 @@ import type { PersistedAdvisory } from "../advisories/advisory.js";
 import type { AdvisoryTransition, DerivedValue, NuisanceEvent, Quality, Sample, StateChange } from "../core/types.js";
 
 export type PlantEvent = NuisanceEvent | StateChange;
+import { AccountStore } from "./accounts.js";
 import { MINUTE_MS, minuteOf, rollupMinutes, type MinuteRollup } from "./chunk.js";
 import { downsample, type TrendInput } from "./downsample.js";
 import { exportLines } from "./export-csv.js";
@@ -321,6 +322,7 @@ export class Historian {
   private overBudget = false;
   private overflowRetryAtMs = Number.NEGATIVE_INFINITY;
   private autoVacuum: HistorianStats["autoVacuum"];
+  private accountStore: AccountStore | null = null;
 
   private constructor(db: Db, path: string, o: Opts) {
     this.db = db;
@@ -477,6 +479,12 @@ export class Historian {
       .pluck()
       .all() as string[];
     return { states, unreadable, shelvedAtStop };
+  }
+
+  /** Local accounts and the audit log in this file (src/store/accounts.ts); writes go straight to the file. */
+  accounts(): AccountStore {
+    this.assertOpen("accounts");
+    return (this.accountStore ??= new AccountStore(this.db));
   }
 
   /** Writes everything queued, one transaction per batch. Never throws for a database failure. */

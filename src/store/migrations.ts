@@ -157,6 +157,103 @@ export const MIGRATIONS: readonly Migration[] = [
       ) WITHOUT ROWID;
     `,
   },
+  {
+    version: 4,
+    description: "local user accounts and the audit log (logins, commands, user changes, configuration loaded)",
+    sql: `
+      -- One row per local account (src/store/accounts.ts). Names compare without case, so
+      -- "J.Ferris" and "j.ferris" cannot be two accounts. password_hash carries its own
+      -- scrypt parameters and salt (src/server/passwords.ts); version goes up at every change,
+      -- which ends the sessions opened before it.
+      CREATE TABLE users (
+        name          TEXT PRIMARY KEY COLLATE NOCASE,
+        role          TEXT NOT NULL CHECK (role IN ('viewer', 'operator', 'engineer', 'admin')),
+        password_hash TEXT NOT NULL,
+        version       INTEGER NOT NULL,
+        created_at_ms INTEGER NOT NULL,
+        updated_at_ms INTEGER NOT NULL
+      ) WITHOUT ROWID;
+
+      -- Who did what, from where: rows are only ever inserted. detail is a JSON object and
+      -- never holds a password, a session or a token (the store refuses such keys).
+      CREATE TABLE audit_log (
+        id     INTEGER PRIMARY KEY,
+        at_ms  INTEGER NOT NULL,
+        actor  TEXT NOT NULL,
+        action TEXT NOT NULL,
+        target TEXT,
+        detail TEXT NOT NULL,
+        source TEXT NOT NULL
+      );
+      CREATE INDEX audit_log_at ON audit_log (at_ms);
+    `,
+  },
+  {
+    version: 5,
+    description: "notification outbox with its delivery log, Web Push subscriptions, the notifier's state",
+    sql: `
+      -- One row per message, recipient and channel (src/store/outbox.ts). dedup_key is
+      -- event | recipient | channel: one advisory transition (or escalation step, reminder ...)
+      -- never makes two rows for a recipient on a channel, however often it is handed in.
+      -- state: pending (not tried yet), failed (tried; tried again at next_attempt_ms), sent,
+      -- dead (given up: not worth retrying, too many attempts or too old). body is the message
+      -- as JSON; neither it nor last_error ever holds a secret.
+      CREATE TABLE notify_outbox (
+        id              INTEGER PRIMARY KEY,
+        dedup_key       TEXT NOT NULL UNIQUE,
+        event_key       TEXT NOT NULL,
+        channel         TEXT NOT NULL,
+        recipient       TEXT NOT NULL,
+        address         TEXT,
+        kind            TEXT NOT NULL,
+        tier            TEXT,
+        advisory_id     TEXT,
+        body            TEXT NOT NULL,
+        state           TEXT NOT NULL CHECK (state IN ('pending', 'sent', 'failed', 'dead')),
+        attempts        INTEGER NOT NULL DEFAULT 0,
+        created_at_ms   INTEGER NOT NULL,
+        next_attempt_ms INTEGER NOT NULL,
+        last_attempt_ms INTEGER,
+        sent_at_ms      INTEGER,
+        last_error      TEXT
+      );
+      CREATE INDEX notify_outbox_due ON notify_outbox (state, next_attempt_ms);
+      CREATE INDEX notify_outbox_created ON notify_outbox (created_at_ms);
+
+      -- The delivery log: one row per attempt, inserted only (pruned with its outbox row).
+      CREATE TABLE notify_deliveries (
+        id          INTEGER PRIMARY KEY,
+        outbox_id   INTEGER NOT NULL REFERENCES notify_outbox (id),
+        channel     TEXT NOT NULL,
+        at_ms       INTEGER NOT NULL,
+        attempt     INTEGER NOT NULL,
+        outcome     TEXT NOT NULL CHECK (outcome IN ('sent', 'retry', 'dead')),
+        error       TEXT,
+        duration_ms INTEGER NOT NULL
+      );
+      CREATE INDEX notify_deliveries_outbox ON notify_deliveries (outbox_id);
+      CREATE INDEX notify_deliveries_channel ON notify_deliveries (channel, outcome, at_ms);
+
+      -- Browsers subscribed to Web Push (RFC 8030), per person; p256dh and auth are the
+      -- subscription's keys for the payload encryption (RFC 8291).
+      CREATE TABLE push_subscriptions (
+        endpoint      TEXT PRIMARY KEY,
+        person_id     TEXT NOT NULL,
+        p256dh        TEXT NOT NULL,
+        auth          TEXT NOT NULL,
+        created_at_ms INTEGER NOT NULL
+      ) WITHOUT ROWID;
+      CREATE INDEX push_subscriptions_person ON push_subscriptions (person_id);
+
+      -- The notifier's state (escalations under way, digests, floods): one row, written in the
+      -- same transaction as the outbox rows it produced, so a restart neither loses nor repeats.
+      CREATE TABLE notify_state (
+        id            INTEGER PRIMARY KEY CHECK (id = 1),
+        body          TEXT NOT NULL,
+        updated_at_ms INTEGER NOT NULL
+      );
+    `,
+  },
 ];
 
 /** Quality codes from this one up are not usable values for roll-ups, per kind of series. */

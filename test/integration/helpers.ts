@@ -30,7 +30,7 @@ export function demoConfigFor(brokerUrl: string, topicPrefix: string, dataDir: s
     ...base,
     clock: "data",
     storage: { ...base.storage, path: join(dataDir, "millwarden.db") },
-    server: { host: "127.0.0.1", port: 0 },
+    server: { host: "127.0.0.1", port: 0, requireLoginForViews: false },
     sources: base.sources.map((s) => ({ ...s, url: brokerUrl, clientId: `mw-test-${process.pid}-${Math.random().toString(16).slice(2, 10)}` })),
     signals: base.signals.map((s) => ({ ...s, topic: s.topic!.replace(DEMO_PREFIX, `${topicPrefix}/`) })),
   };

@@ -68,7 +68,7 @@ describe("restart", () => {
       const raise = core.transitions.find((t) => t.advisoryId === "o2-margin-vm2" && t.transition === "raise")!;
       const upTo = samples.filter((s) => s.sourceTimeMs <= raise.atMs + 1000);
       feed(first, upTo);
-      const ack = first.appDeps().command("o2-margin-vm2", "ack", { by: "m.leitstand", note: "purge running" });
+      const ack = first.appDeps().command("o2-margin-vm2", "ack", { by: "m.leitstand", role: "operator", note: "purge running" });
       expect(ack).toMatchObject({ ok: true, advisory: { state: "ack" } });
       await first.stop();
 
@@ -127,6 +127,33 @@ describe("warm start", () => {
     } finally {
       dirA.remove();
       dirB.remove();
+    }
+  });
+});
+
+describe("data clock, data older than the stored history", () => {
+  it("starts the core afresh instead of standing still, and raises what a fresh core raises", async () => {
+    const { cfg, samples } = setup();
+    const dir = tempDir("mw-older-");
+    try {
+      // Yesterday's run stored a later day (the same data a day on) in this file.
+      const later = await daemonOn(cfg, dir.path);
+      feed(later, samples.map((s) => ({ ...s, sourceTimeMs: s.sourceTimeMs + 86_400_000, receiveTimeMs: s.receiveTimeMs + 86_400_000 })));
+      await later.stop();
+      const d = await daemonOn(cfg, dir.path);
+      try {
+        feed(d, samples);
+        const lastMs = Math.floor(samples.at(-1)!.sourceTimeMs / 1000) * 1000;
+        expect(d.coreNowMs).toBe(lastMs);
+        d.tick(lastMs);
+        const core = runCore(cfg, samples);
+        const raisedHere = d.historian.transitions({ fromMs: samples[0]!.sourceTimeMs, toMs: lastMs }).filter((t) => t.transition === "raise");
+        expect(raisedHere.map((t) => [t.advisoryId, t.atMs])).toEqual(core.transitions.filter((t) => t.transition === "raise").map((t) => [t.advisoryId, t.atMs]));
+      } finally {
+        await d.stop();
+      }
+    } finally {
+      dir.remove();
     }
   });
 });

@@ -93,7 +93,7 @@ export function configOf(folder: string, spec: ScenarioSpec): MillwardenConfig {
   for (const id of Object.keys(spec.ruleOverrides)) {
     if (!cfg.rules.some((r) => r.id === id)) throw new Error(`test/scenarios/${folder}/scenario.json: ruleOverrides: no rule "${id}" in ${spec.config}`);
   }
-  return { ...cfg, rules: cfg.rules.map((r) => ({ ...r, ...(spec.ruleOverrides![r.id] ?? {}) })) };
+  return { ...cfg, rules: cfg.rules.map((r) => ({ ...r, ...spec.ruleOverrides![r.id] })) };
 }
 
 /** The simulator's frames as samples of the config's signals (topic suffix = tag). */

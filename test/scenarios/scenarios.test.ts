@@ -408,7 +408,7 @@ const CHECKS: Record<string, Record<string, Check>> = {
     "without the analyser's status signal the same check gases would raise O2 and CO advisories": ({ samples }) => {
       const demo = loadConfig(DEMO_CONFIG);
       // config/demo.yaml without the status contact: bf2-a213 has no functionCheckSignal.
-      const unaware = { ...demo, analysers: demo.analysers.map(({ functionCheckSignal: _, ...a }) => a) };
+      const unaware = { ...demo, analysers: demo.analysers.map((a) => ({ ...a, functionCheckSignal: undefined })) };
       expect(demo.analysers.find((a) => a.id === "bf2-a213")?.functionCheckSignal).toBe("bf2.a213.status");
       const blind = runCore(unaware, samples);
       const raised = annunciations(blind.transitions).filter((t) => t.atMs >= SIM_START_MS + CAL_STATUS_ON_S * 1000);

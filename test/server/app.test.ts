@@ -11,9 +11,29 @@ const HOUR = 3_600_000;
 let deps: FakeDeps;
 let app: FastifyInstance;
 
+/** A logged-in browser: its cookie and its CSRF token. */
+interface Login {
+  cookie: string;
+  csrf: string;
+}
+const PASSWORD = "tarnholm-line2-shift";
+let operator: Login;
+let engineer: Login;
+
+async function login(user: string): Promise<Login> {
+  const res = await app.inject({ method: "POST", url: "/api/login", payload: { user, password: PASSWORD } });
+  expect(res.statusCode).toBe(200);
+  const cookie = res.cookies.find((c) => c.name === "millwarden_session");
+  return { cookie: `millwarden_session=${cookie!.value}`, csrf: res.json().csrfToken };
+}
+
 beforeEach(async () => {
   deps = new FakeDeps();
+  await deps.addUser("a.operator", "operator", PASSWORD);
+  await deps.addUser("a.engineer", "engineer", PASSWORD);
   app = await buildApp(deps);
+  operator = await login("a.operator");
+  engineer = await login("a.engineer");
 });
 
 afterEach(async () => {
@@ -64,14 +84,14 @@ describe("GET /api/state", () => {
 describe("GET /api/advisories", () => {
   it("passes the default limit of 100 and returns active and history, newest first", async () => {
     const before = deps.transitions.length;
-    deps.command("co-rate-bf2-outlet", "ack", { by: "A. Operator" });
+    deps.command("co-rate-bf2-outlet", "ack", { by: "a.operator", role: "operator" });
     const res = await app.inject({ method: "GET", url: "/api/advisories" });
     expect(res.statusCode).toBe(200);
     expect(deps.calls.advisories.at(-1)).toEqual({ limit: 100 });
     const body = res.json();
     expect(body.active.map((a: { id: string }) => a.id)).toEqual(deps.state.advisories.map((a) => a.id));
     expect(body.history).toHaveLength(before + 1);
-    expect(body.history[0]).toMatchObject({ advisoryId: "co-rate-bf2-outlet", transition: "ack", by: "A. Operator" });
+    expect(body.history[0]).toMatchObject({ advisoryId: "co-rate-bf2-outlet", transition: "ack", by: "a.operator" });
   });
 
   it("passes limit=1 and limit=1000 through", async () => {
@@ -94,12 +114,16 @@ describe("GET /api/advisories", () => {
   });
 });
 
-/** POST a command; a string payload is sent as it is (to test what does not parse). */
-function postCommand(id: string, command: string, payload: unknown, contentType = "application/json") {
+/**
+ * POST a command as a logged-in person (the operator unless told); a string payload is sent as
+ * it is (to test what does not parse). Out of service and return to service need the engineer.
+ */
+function postCommand(id: string, command: string, payload: unknown, contentType = "application/json", as?: Login) {
+  const who = as ?? (command === "out-of-service" || command === "return-to-service" ? engineer : operator);
   return app.inject({
     method: "POST",
     url: `/api/advisories/${encodeURIComponent(id)}/${command}`,
-    headers: { "content-type": contentType },
+    headers: { "content-type": contentType, cookie: who.cookie, "x-csrf-token": who.csrf },
     payload: typeof payload === "string" ? payload : JSON.stringify(payload),
   });
 }
@@ -107,45 +131,45 @@ function postCommand(id: string, command: string, payload: unknown, contentType 
 describe("POST /api/advisories/:id/ack", () => {
   const post = (id: string, payload: unknown, contentType = "application/json") => postCommand(id, "ack", payload, contentType);
 
-  it("acknowledges, passes who and why, and the daemon's delta follows", async () => {
+  it("acknowledges, passes who (the session's) and why, and the daemon's delta follows", async () => {
     const seen: LiveMessage[] = [];
     deps.subscribe((m) => seen.push(m));
-    const res = await post("co-rate-bf2-outlet", { by: " A. Operator ", note: "hopper checked" });
+    const res = await post("co-rate-bf2-outlet", { note: "hopper checked" });
     expect(res.statusCode).toBe(200);
-    expect(res.json().advisory).toMatchObject({ id: "co-rate-bf2-outlet", state: "ack", ackedBy: "A. Operator", ackedAtMs: FAKE_NOW_MS });
-    expect(deps.calls.command).toEqual([{ id: "co-rate-bf2-outlet", kind: "ack", body: { by: "A. Operator", note: "hopper checked" } }]);
+    expect(res.json().advisory).toMatchObject({ id: "co-rate-bf2-outlet", state: "ack", ackedBy: "a.operator", ackedAtMs: FAKE_NOW_MS });
+    expect(deps.calls.command).toEqual([{ id: "co-rate-bf2-outlet", kind: "ack", body: { by: "a.operator", role: "operator", note: "hopper checked" } }]);
     expect(seen).toHaveLength(1);
     expect(seen[0]?.type).toBe("delta");
-    expect(deps.transitions[0]).toMatchObject({ transition: "ack", by: "A. Operator", why: "hopper checked" });
+    expect(deps.transitions[0]).toMatchObject({ transition: "ack", by: "a.operator", why: "hopper checked" });
   });
 
   it("answers advisory null once an acknowledgement returns it to normal (rtn-unack)", async () => {
-    const res = await post("dew-margin-vm2-outlet", { by: "A. Operator" });
+    const res = await post("dew-margin-vm2-outlet", {});
     expect(res.statusCode).toBe(200);
     expect(res.json()).toEqual({ advisory: null });
     expect(deps.state.advisories.map((a) => a.id)).not.toContain("dew-margin-vm2-outlet");
   });
 
   it("passes the daemon's 404 through", async () => {
-    const res = await post("no-such-rule", { by: "A. Operator" });
+    const res = await post("no-such-rule", {});
     expect(expectError(res, "ADVISORY_NOT_FOUND")).toBe('no advisory "no-such-rule": expected the id of an advisory in GET /api/advisories');
   });
 
   it("passes the daemon's 409 through (already acknowledged, suppressed)", async () => {
-    const acked = await post("o2-margin-bf2", { by: "A. Operator" });
+    const acked = await post("o2-margin-bf2", {});
     expect(expectError(acked, "ADVISORY_CONFLICT")).toBe('advisory "o2-margin-bf2" is already acknowledged by J. Ferris');
-    const suppressed = await post("co-rate-s21-top", { by: "A. Operator" });
+    const suppressed = await post("co-rate-s21-top", {});
     expect(expectError(suppressed, "ADVISORY_CONFLICT")).toBe('advisory "co-rate-s21-top" is suppressed: nothing to acknowledge');
   });
 
   it.each([
-    [{}, /field "by"/],
-    [{ by: "" }, /field "by": expected 1 to 64 printable characters/],
-    [{ by: "x".repeat(65) }, /found 65 characters/],
-    [{ by: "A", note: "n".repeat(501) }, /field "note": expected at most 500 characters, found 501/],
-    [{ by: "A", extra: true }, /found "extra"/],
-    [{ by: "A", reason: "checked" }, /request body for ack: expected only the fields "by" and "note", found "reason"/],
-    [[{ by: "A" }], /found an array of 1/],
+    // Who gives the command is the session's user: a body that names someone is refused.
+    [{ by: "A. Operator" }, /field "by": not accepted; who gives a command and in what role come from the login session/],
+    [{ role: "engineer" }, /field "role": not accepted/],
+    [{ note: "n".repeat(501) }, /field "note": expected at most 500 characters, found 501/],
+    [{ extra: true }, /found "extra"/],
+    [{ reason: "checked" }, /request body for ack: expected only the field "note", found "reason"/],
+    [[{ note: "A" }], /found an array of 1/],
     ["{not json", /expected valid JSON/],
     ["", /found an empty body/],
   ])("400 on body %j, nothing reaches the daemon", async (payload, why) => {
@@ -163,21 +187,21 @@ describe("POST /api/advisories/:id/ack", () => {
   });
 
   it("refuses an oversized body (413)", async () => {
-    const res = await post("co-rate-bf2-outlet", { by: "A", note: "n".repeat(20_000) });
+    const res = await post("co-rate-bf2-outlet", { note: "n".repeat(20_000) });
     expectError(res, "BODY_TOO_LARGE");
   });
 
   it("refuses an over-long id (400), also one the router itself rejects", async () => {
-    const res = await post("x".repeat(201), { by: "A" });
+    const res = await post("x".repeat(201), {});
     expect(expectError(res, "BAD_PARAM")).toContain('path parameter "id": expected an advisory id of 1 to 200');
-    const longer = await post("x".repeat(300), { by: "A" });
+    const longer = await post("x".repeat(300), {});
     expect(expectError(longer, "BAD_PARAM")).toContain("expected at most 200 characters");
     expect(longer.headers["x-content-type-options"]).toBe("nosniff");
     expect(deps.calls.command).toHaveLength(0);
   });
 
   it("refuses a malformed URL encoding with the JSON error body", async () => {
-    const res = await app.inject({ method: "POST", url: "/api/advisories/%E0%A4%A/ack", payload: { by: "A" } });
+    const res = await app.inject({ method: "POST", url: "/api/advisories/%E0%A4%A/ack", payload: {} });
     expect(expectError(res, "BAD_REQUEST")).toContain("percent-encoding");
   });
 });
@@ -187,17 +211,17 @@ describe("POST /api/advisories/:id/<command>: each command's success", () => {
   // stated beside it; the expected results follow the lifecycle of src/advisories/advisory.ts.
   it.each([
     // latched, condition gone: a reset returns it to normal
-    ["reset", "co-peak-vm2-outlet", { by: "A. Operator", note: "table inspected" }, null, "reset", "table inspected"],
+    ["reset", "co-peak-vm2-outlet", { note: "table inspected" }, null, "reset", "table inspected"],
     // unack caution, condition present
-    ["shelve", "co-rate-bf2-outlet", { by: "A. Operator", reason: "analyser purge", durationS: 900 }, "shelved", "shelve", "analyser purge — shelved for 15 min"],
+    ["shelve", "co-rate-bf2-outlet", { reason: "analyser purge", durationS: 900 }, "shelved", "shelve", "analyser purge — shelved for 15 min"],
     // unack notice, one-shot: bounded by the site's longest shelve (8 h by default)
-    ["shelve", "dew-margin-bf2-outlet", { by: "A. Operator", reason: "cold start", oneShot: true }, "shelved", "shelve", "cold start — shelved one-shot (until it clears, at most 480 min)"],
+    ["shelve", "dew-margin-bf2-outlet", { reason: "cold start", oneShot: true }, "shelved", "shelve", "cold start — shelved one-shot (until it clears, at most 480 min)"],
     // shelved while its condition cleared: unshelving leaves it normal
-    ["unshelve", "o2-time-vm2", { by: "A. Operator" }, null, "unshelve", "unshelved"],
+    ["unshelve", "o2-time-vm2", {}, null, "unshelve", "unshelved"],
     // unack caution, an engineer takes it out of service
-    ["out-of-service", "co-rate-bf2-outlet", { by: "A. Engineer", reason: "analyser replaced", role: "engineer" }, "out-of-service", "out-of-service", "analyser replaced"],
+    ["out-of-service", "co-rate-bf2-outlet", { reason: "analyser replaced" }, "out-of-service", "out-of-service", "analyser replaced"],
     // out of service with its condition still present: back in service it is unacknowledged
-    ["return-to-service", "dew-margin-bf2-hopper", { by: "A. Engineer", role: "engineer", reason: "thermocouple replaced" }, "unack", "return-to-service", "thermocouple replaced"],
+    ["return-to-service", "dew-margin-bf2-hopper", { reason: "thermocouple replaced" }, "unack", "return-to-service", "thermocouple replaced"],
   ] as const)("%s %s", async (command, id, body, state, transition, why) => {
     const seen: LiveMessage[] = [];
     deps.subscribe((m) => seen.push(m));
@@ -206,18 +230,19 @@ describe("POST /api/advisories/:id/<command>: each command's success", () => {
     const advisory = res.json().advisory;
     if (state === null) expect(advisory).toBeNull();
     else expect(advisory).toMatchObject({ id, state });
-    expect(deps.calls.command).toEqual([{ id, kind: command, body }]);
-    expect(deps.transitions[0]).toMatchObject({ advisoryId: id, transition, by: body.by, why, atMs: FAKE_NOW_MS });
+    const [by, role] = command === "out-of-service" || command === "return-to-service" ? ["a.engineer", "engineer"] : ["a.operator", "operator"];
+    expect(deps.calls.command).toEqual([{ id, kind: command, body: { ...body, by, role } }]);
+    expect(deps.transitions[0]).toMatchObject({ advisoryId: id, transition, by, why, atMs: FAKE_NOW_MS });
     expect(seen).toHaveLength(1);
     const delta = seen[0];
     expect(delta?.type === "delta" && delta.advisories?.find((a) => a.id === id)?.state).toBe(state ?? undefined);
   });
 
   it("shelve answers who, why and until when", async () => {
-    const res = await postCommand("co-rate-bf2-outlet", "shelve", { by: "A. Operator", reason: "analyser purge", durationS: 3600 });
+    const res = await postCommand("co-rate-bf2-outlet", "shelve", { reason: "analyser purge", durationS: 3600 });
     expect(res.json().advisory).toMatchObject({
       state: "shelved",
-      heldBy: "A. Operator",
+      heldBy: "a.operator",
       heldReason: "analyser purge",
       shelvedUntilMs: FAKE_NOW_MS + 3_600_000,
       oneShot: false,
@@ -225,8 +250,8 @@ describe("POST /api/advisories/:id/<command>: each command's success", () => {
   });
 
   it("a shelved advisory whose condition is present comes back unacknowledged on unshelve", async () => {
-    await postCommand("co-rate-bf2-outlet", "shelve", { by: "A. Operator", reason: "analyser purge", durationS: 900 });
-    const res = await postCommand("co-rate-bf2-outlet", "unshelve", { by: "A. Operator", reason: "purge done" });
+    await postCommand("co-rate-bf2-outlet", "shelve", { reason: "analyser purge", durationS: 900 });
+    const res = await postCommand("co-rate-bf2-outlet", "unshelve", { reason: "purge done" });
     expect(res.statusCode).toBe(200);
     expect(res.json().advisory).toMatchObject({ state: "unack", heldBy: null, shelvedUntilMs: null });
     expect(deps.transitions[0]).toMatchObject({ transition: "unshelve", from: "shelved", to: "unack", why: "purge done" });
@@ -236,25 +261,22 @@ describe("POST /api/advisories/:id/<command>: each command's success", () => {
 describe("POST /api/advisories/:id/<command>: the daemon's refusals", () => {
   it.each([
     // 400: beyond the site's longest shelve (advisoryPolicy.maxShelveS, 8 h by default)
-    ["shelve", "co-rate-bf2-outlet", { by: "A", reason: "r", durationS: 8 * 3600 + 1 }, "BAD_COMMAND", /expected "durationS" between 1 and 28800 s \(advisoryPolicy.maxShelveS\); found 28801/],
-    // 403: the engineer role is needed, an operator or an undeclared role is refused
-    ["out-of-service", "co-rate-bf2-outlet", { by: "A", reason: "r", role: "operator" }, "FORBIDDEN", /needs the engineer role/],
-    ["out-of-service", "co-rate-bf2-outlet", { by: "A", reason: "r" }, "FORBIDDEN", /needs the engineer role/],
-    ["return-to-service", "dew-margin-bf2-hopper", { by: "A" }, "FORBIDDEN", /returning advisory "dew-margin-bf2-hopper" to service needs the engineer role/],
+    ["shelve", "co-rate-bf2-outlet", { reason: "r", durationS: 8 * 3600 + 1 }, "BAD_COMMAND", /expected "durationS" between 1 and 28800 s \(advisoryPolicy.maxShelveS\); found 28801/],
+    // (403 by role is the server's own refusal, before the daemon: see auth.test.ts)
     // 404: no such advisory, for every command
-    ["reset", "no-such-rule", { by: "A" }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
-    ["shelve", "no-such-rule", { by: "A", reason: "r", oneShot: true }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
-    ["unshelve", "no-such-rule", { by: "A" }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
-    ["out-of-service", "no-such-rule", { by: "A", reason: "r", role: "engineer" }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
-    ["return-to-service", "no-such-rule", { by: "A", role: "engineer" }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
+    ["reset", "no-such-rule", {}, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
+    ["shelve", "no-such-rule", { reason: "r", oneShot: true }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
+    ["unshelve", "no-such-rule", {}, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
+    ["out-of-service", "no-such-rule", { reason: "r" }, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
+    ["return-to-service", "no-such-rule", {}, "ADVISORY_NOT_FOUND", /no advisory "no-such-rule"/],
     // 409: the state does not accept the command
-    ["reset", "co-rate-bf2-outlet", { by: "A" }, "ADVISORY_CONFLICT", /cannot be reset: it is unack, not latched/],
-    ["shelve", "co-rise-bf2-outlet", { by: "A", reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /at warning tier, which this site does not allow to be shelved/],
-    ["shelve", "o2-time-vm2", { by: "A", reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /already shelved by P. Lindqvist until 2024-11-14T06:22:10.000Z/],
-    ["shelve", "dew-margin-bf2-hopper", { by: "A", reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /is out of service/],
-    ["unshelve", "co-rate-bf2-outlet", { by: "A" }, "ADVISORY_CONFLICT", /is not shelved/],
-    ["out-of-service", "dew-margin-bf2-hopper", { by: "A", reason: "r", role: "engineer" }, "ADVISORY_CONFLICT", /already out of service \(by M. Okafor\)/],
-    ["return-to-service", "co-rate-bf2-outlet", { by: "A", role: "engineer" }, "ADVISORY_CONFLICT", /is not out of service/],
+    ["reset", "co-rate-bf2-outlet", {}, "ADVISORY_CONFLICT", /cannot be reset: it is unack, not latched/],
+    ["shelve", "co-rise-bf2-outlet", { reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /at warning tier, which this site does not allow to be shelved/],
+    ["shelve", "o2-time-vm2", { reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /already shelved by P. Lindqvist until 2024-11-14T06:22:10.000Z/],
+    ["shelve", "dew-margin-bf2-hopper", { reason: "r", durationS: 900 }, "ADVISORY_CONFLICT", /is out of service/],
+    ["unshelve", "co-rate-bf2-outlet", {}, "ADVISORY_CONFLICT", /is not shelved/],
+    ["out-of-service", "dew-margin-bf2-hopper", { reason: "r" }, "ADVISORY_CONFLICT", /already out of service \(by M. Okafor\)/],
+    ["return-to-service", "co-rate-bf2-outlet", {}, "ADVISORY_CONFLICT", /is not out of service/],
   ] as const)("%s %s %j: %s", async (command, id, body, code, why) => {
     const before = JSON.stringify(deps.state.advisories);
     const res = await postCommand(id, command, body);
@@ -266,27 +288,26 @@ describe("POST /api/advisories/:id/<command>: the daemon's refusals", () => {
 
 describe("POST /api/advisories/:id/<command>: bodies", () => {
   it.each([
-    ["shelve", { by: "A", durationS: 900 }, /field "reason": expected why the advisory is shelved \(a string of 1 to 500 characters\), found nothing/],
-    ["shelve", { by: "A", reason: "   ", durationS: 900 }, /field "reason": expected why the advisory is shelved \(1 to 500 characters\), found only spaces/],
-    ["shelve", { by: "A", reason: 5, durationS: 900 }, /field "reason": .* found number 5/],
-    ["shelve", { by: "A", reason: "a\nb", durationS: 900 }, /field "reason": expected printable characters on one line, found a control character/],
-    ["shelve", { by: "A", reason: "r".repeat(501), durationS: 900 }, /field "reason": expected at most 500 characters, found 501/],
-    ["shelve", { by: "A", reason: "r" }, /request body for shelve: expected "durationS" \(whole seconds\) or "oneShot": true, found neither/],
-    ["shelve", { by: "A", reason: "r", oneShot: false }, /found "oneShot": false and no "durationS"/],
-    ["shelve", { by: "A", reason: "r", durationS: "3600" }, /field "durationS": expected a whole number of seconds, at least 1 .* found "3600"/],
-    ["shelve", { by: "A", reason: "r", durationS: 1.5 }, /field "durationS": .* found number 1.5/],
-    ["shelve", { by: "A", reason: "r", durationS: 0 }, /field "durationS": .* found number 0/],
-    ["shelve", { by: "A", reason: "r", durationS: null }, /field "durationS": .* found null/],
-    ["shelve", { by: "A", reason: "r", oneShot: "yes" }, /field "oneShot": expected true or false, found "yes"/],
-    ["shelve", { by: "A", reason: "r", durationS: 900, note: "n" }, /request body for shelve: expected only the fields "by", "reason", "durationS" and "oneShot", found "note"/],
-    ["shelve", { reason: "r", durationS: 900 }, /field "by": expected the name of the person shelving/],
-    ["unshelve", { by: "A", durationS: 900 }, /expected only the fields "by" and "reason", found "durationS"/],
-    ["reset", { by: "A", reason: "r" }, /request body for reset: expected only the fields "by" and "note", found "reason"/],
-    ["out-of-service", { by: "A", role: "engineer" }, /field "reason": expected why the advisory is taken out of service/],
-    ["out-of-service", { by: "A", reason: "r", role: "admin" }, /field "role": expected "operator" or "engineer" \(declared by the client until logins exist\), found "admin"/],
-    ["return-to-service", { by: "A", role: true }, /field "role": .* found boolean true/],
-    ["return-to-service", { by: "A", role: "engineer", note: "n" }, /expected only the fields "by", "reason" and "role", found "note"/],
-    ["shelve", null, /request body for shelve: expected a JSON object such as \{"by": "A. Operator", "reason": "...", "durationS": 3600\}, found null/],
+    ["shelve", { durationS: 900 }, /field "reason": expected why the advisory is shelved \(a string of 1 to 500 characters\), found nothing/],
+    ["shelve", { reason: "   ", durationS: 900 }, /field "reason": expected why the advisory is shelved \(1 to 500 characters\), found only spaces/],
+    ["shelve", { reason: 5, durationS: 900 }, /field "reason": .* found number 5/],
+    ["shelve", { reason: "a\nb", durationS: 900 }, /field "reason": expected printable characters on one line, found a control character/],
+    ["shelve", { reason: "r".repeat(501), durationS: 900 }, /field "reason": expected at most 500 characters, found 501/],
+    ["shelve", { reason: "r" }, /request body for shelve: expected "durationS" \(whole seconds\) or "oneShot": true, found neither/],
+    ["shelve", { reason: "r", oneShot: false }, /found "oneShot": false and no "durationS"/],
+    ["shelve", { reason: "r", durationS: "3600" }, /field "durationS": expected a whole number of seconds, at least 1 .* found "3600"/],
+    ["shelve", { reason: "r", durationS: 1.5 }, /field "durationS": .* found number 1.5/],
+    ["shelve", { reason: "r", durationS: 0 }, /field "durationS": .* found number 0/],
+    ["shelve", { reason: "r", durationS: null }, /field "durationS": .* found null/],
+    ["shelve", { reason: "r", oneShot: "yes" }, /field "oneShot": expected true or false, found "yes"/],
+    ["shelve", { reason: "r", durationS: 900, note: "n" }, /request body for shelve: expected only the fields "reason", "durationS" and "oneShot", found "note"/],
+    ["shelve", { by: "A. Operator", reason: "r", durationS: 900 }, /field "by": not accepted; who gives a command and in what role come from the login session \(POST \/api\/login\)/],
+    ["unshelve", { durationS: 900 }, /expected only the field "reason", found "durationS"/],
+    ["reset", { reason: "r" }, /request body for reset: expected only the field "note", found "reason"/],
+    ["out-of-service", {}, /field "reason": expected why the advisory is taken out of service/],
+    ["out-of-service", { reason: "r", role: "admin" }, /field "role": not accepted/],
+    ["return-to-service", { reason: "r", note: "n" }, /expected only the field "reason", found "note"/],
+    ["shelve", null, /request body for shelve: expected a JSON object such as \{"reason": "...", "durationS": 3600\}, found null/],
   ])("%s %j: 400, nothing reaches the daemon", async (command, payload, why) => {
     const res = await postCommand("co-rate-bf2-outlet", command, payload);
     expect(expectError(res, "BAD_BODY")).toMatch(why);
@@ -294,10 +315,10 @@ describe("POST /api/advisories/:id/<command>: bodies", () => {
   });
 
   it("trims texts and drops an empty optional reason", async () => {
-    await postCommand("o2-time-vm2", "unshelve", { by: " B. Operator ", reason: "  " });
-    expect(deps.calls.command[0]?.body).toEqual({ by: "B. Operator" });
-    await postCommand("co-rate-bf2-outlet", "shelve", { by: "B", reason: "  purge ", durationS: 60, oneShot: false });
-    expect(deps.calls.command[1]?.body).toEqual({ by: "B", reason: "purge", durationS: 60, oneShot: false });
+    await postCommand("o2-time-vm2", "unshelve", { reason: "  " });
+    expect(deps.calls.command[0]?.body).toEqual({ by: "a.operator", role: "operator" });
+    await postCommand("co-rate-bf2-outlet", "shelve", { reason: "  purge ", durationS: 60, oneShot: false });
+    expect(deps.calls.command[1]?.body).toEqual({ by: "a.operator", role: "operator", reason: "purge", durationS: 60, oneShot: false });
   });
 
   it("refuses non-JSON bodies on every command (415)", async () => {

@@ -18,6 +18,9 @@ import {
   type LiveMessage,
   type PlantState,
 } from "../../src/core/types.js";
+import { hashPassword, type ScryptParams } from "../../src/server/passwords.js";
+import type { AccountRole, AccountStore } from "../../src/store/accounts.js";
+import { Historian } from "../../src/store/historian.js";
 import {
   UnknownSeriesError,
   type AckResult,
@@ -28,6 +31,9 @@ import {
 } from "../../src/server/deps.js";
 
 export const DASHBOARD_DIR = fileURLToPath(new URL("../../dashboard/", import.meta.url));
+
+/** The lowest scrypt cost passwords.ts accepts: tests need the checks, not the cost. */
+export const TEST_SCRYPT: ScryptParams = { logN: 10, r: 8, p: 1 };
 
 /** 2024-11-14 05:42:10 UTC: the fake plant's "now". */
 export const FAKE_NOW_MS = Date.UTC(2024, 10, 14, 5, 42, 10);
@@ -214,9 +220,10 @@ export function fakeAdvisoryBoard(nowMs = FAKE_NOW_MS): { board: AdvisoryBoard; 
   return { board, transitions };
 }
 
-/** The command the daemon builds from a request body (the same mapping as src/daemon). */
+/** The command the daemon builds from a request body (the same mapping as src/daemon: an admin acts as engineer). */
 function toCommand(advisoryId: string, kind: CommandKind, body: AdvisoryCommandBody, atMs: number): Command {
-  const base = { advisoryId, by: body.by, atMs, role: body.role };
+  const role = body.role === "admin" || body.role === "engineer" ? ("engineer" as const) : ("operator" as const);
+  const base = { advisoryId, by: body.by, atMs, role };
   switch (kind) {
     case "ack":
       return { ...base, kind, note: body.note };
@@ -641,6 +648,8 @@ export class FakeDeps implements AppDeps {
   series = new Map<string, TrendPoint[]>();
   calls: FakeCalls = { advisories: [], command: [], trend: [], getState: 0 };
   readonly dashboardDir: string;
+  /** The real account store and audit log, on an in-memory historian. */
+  readonly accounts: AccountStore = Historian.open({ path: ":memory:" }).accounts();
   private readonly listeners = new Set<(msg: LiveMessage) => void>();
 
   constructor(opts: { nowMs?: number; dashboardDir?: string } = {}) {
@@ -666,6 +675,11 @@ export class FakeDeps implements AppDeps {
 
   get listenerCount(): number {
     return this.listeners.size;
+  }
+
+  /** An account with a cheap hash (TEST_SCRYPT), so that a test logs in within milliseconds. */
+  async addUser(name: string, role: AccountRole, password: string): Promise<void> {
+    this.accounts.addUser(name, role, await hashPassword(password, TEST_SCRYPT), this.state.nowMs);
   }
 
   getState(): PlantState {

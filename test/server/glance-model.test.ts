@@ -178,26 +178,26 @@ describe("advisory actions and marks", () => {
 describe("commandBody", () => {
   it("builds the body the API takes, for every shelve choice", () => {
     for (const choice of SHELVE_CHOICES) {
-      const made = commandBody("shelve", { by: " A. Operator ", reason: " purge ", choice: choice.id });
+      const made = commandBody("shelve", { reason: " purge ", choice: choice.id });
       expect(made.error).toBeUndefined();
       const body = made.body!;
       // What the form sends passes the server's own validation unchanged.
       expect(parseCommandBody("shelve", body)).toEqual(body);
-      expect(body).toEqual(choice.oneShot ? { by: "A. Operator", reason: "purge", oneShot: true } : { by: "A. Operator", reason: "purge", durationS: choice.durationS });
+      expect(body).toEqual(choice.oneShot ? { reason: "purge", oneShot: true } : { reason: "purge", durationS: choice.durationS });
       // No timed choice beyond the schema's default longest shelve (advisoryPolicy.maxShelveS).
       if (!choice.oneShot) expect(choice.durationS).toBeLessThanOrEqual(FAKE_POLICY.maxShelveS);
     }
     expect(SHELVE_CHOICES.map((c) => c.label)).toEqual(["15 min", "1 h", "4 h", "8 h", "until it clears (one-shot)"]);
-    expect(commandBody("ack", { by: "A. Operator", reason: "ignored" })).toEqual({ body: { by: "A. Operator" } });
+    // Who gives a command is the login's: the body never names anyone.
+    expect(commandBody("ack", { reason: "ignored" })).toEqual({ body: {} });
+    expect(parseCommandBody("ack", commandBody("ack", {}).body)).toEqual({});
   });
 
   it.each([
-    ["ack", { by: "  " }, /Your name is needed/],
-    ["reset", { by: "x".repeat(65) }, /longer than 64 characters/],
-    ["shelve", { by: "A", reason: " ", choice: "1h" }, /A reason is needed to shelve/],
-    ["shelve", { by: "A", reason: "r".repeat(501), choice: "1h" }, /reason is longer than 500 characters/],
-    ["shelve", { by: "A", reason: "purge", choice: null }, /Choose how long/],
-    ["shelve", { by: "A", reason: "purge", choice: "2d" }, /Choose how long/],
+    ["shelve", { reason: " ", choice: "1h" }, /A reason is needed to shelve/],
+    ["shelve", { reason: "r".repeat(501), choice: "1h" }, /reason is longer than 500 characters/],
+    ["shelve", { reason: "purge", choice: null }, /Choose how long/],
+    ["shelve", { reason: "purge", choice: "2d" }, /Choose how long/],
   ] as const)("%s %j says what is missing", (kind, fields, why) => {
     const made = commandBody(kind, fields);
     expect(made.body).toBeUndefined();

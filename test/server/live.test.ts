@@ -222,6 +222,7 @@ describe("WebSocket /api/live on a real port", () => {
 
   it("snapshot on connect, deltas as pushed, unsubscribe on close, clean shutdown", async () => {
     const deps = new FakeDeps();
+    await deps.addUser("a.operator", "operator", "pw-a.operator-Tarnholm-2024!");
     server = await startServer(deps, { host: "127.0.0.1", port: 0 });
     expect(server.url).toMatch(/^http:\/\/127\.0\.0\.1:\d+$/);
     const ws = new WebSocket(`${server.url.replace("http", "ws")}/api/live`);
@@ -242,11 +243,18 @@ describe("WebSocket /api/live on a real port", () => {
     expect(second.nowMs).toBe(deps.state.nowMs);
     expect(second.coPoints?.find((p) => p.id === "bf2-outlet")?.coPpm).toBe(163);
 
-    // An acknowledgement over HTTP reaches the socket as a delta with the whole advisory list.
-    const res = await fetch(`${server.url}/api/advisories/co-rate-bf2-outlet/ack`, {
+    // An acknowledgement over HTTP (logged in) reaches the socket as a delta with the whole advisory list.
+    const login = await fetch(`${server.url}/api/login`, {
       method: "POST",
       headers: { "content-type": "application/json" },
-      body: JSON.stringify({ by: "A. Operator" }),
+      body: JSON.stringify({ user: "a.operator", password: "pw-a.operator-Tarnholm-2024!" }),
+    });
+    const cookie = login.headers.get("set-cookie")!.split(";")[0]!;
+    const { csrfToken } = (await login.json()) as { csrfToken: string };
+    const res = await fetch(`${server.url}/api/advisories/co-rate-bf2-outlet/ack`, {
+      method: "POST",
+      headers: { "content-type": "application/json", cookie, "x-csrf-token": csrfToken },
+      body: JSON.stringify({}),
     });
     expect(res.status).toBe(200);
     const third = await box.next();

@@ -1,12 +1,12 @@
 import { describe, expect, it } from "vitest";
 import { ApiError } from "../../src/server/errors.js";
 import {
-  ACK_BY_MAX_CHARS,
   ACK_NOTE_MAX_CHARS,
   ADVISORY_COMMANDS,
+  AUDIT_LIMIT_MAX,
   REASON_MAX_CHARS,
-  parseAckBody,
   parseAdvisoryLimit,
+  parseAuditQuery,
   parseCommandBody,
   parseCommandName,
   parseTimeMs,
@@ -153,35 +153,45 @@ describe("parseAdvisoryLimit", () => {
   });
 });
 
-describe("parseAckBody", () => {
-  it("trims the name and the note and drops an empty note", () => {
-    expect(parseAckBody({ by: "  A. Operator ", note: " checked hopper " })).toEqual({ by: "A. Operator", note: "checked hopper" });
-    expect(parseAckBody({ by: "A. Operator", note: "   " })).toEqual({ by: "A. Operator" });
+describe("parseCommandBody: ack", () => {
+  it("trims the note and drops an empty one", () => {
+    expect(parseCommandBody("ack", { note: " checked hopper " })).toEqual({ note: "checked hopper" });
+    expect(parseCommandBody("ack", { note: "   " })).toEqual({});
+    expect(parseCommandBody("ack", {})).toEqual({});
   });
 
-  // Lengths are counted in characters (code points): 64 two-unit characters are 64, not 128.
+  // Lengths are counted in characters (code points): 500 two-unit characters are 500, not 1000.
   it("counts characters, not UTF-16 units", () => {
     const wide = "\u{1D49C}"; // one character, two UTF-16 code units
-    expect(parseAckBody({ by: wide.repeat(ACK_BY_MAX_CHARS) }).by).toHaveLength(2 * ACK_BY_MAX_CHARS);
-    expect(apiError(() => parseAckBody({ by: wide.repeat(ACK_BY_MAX_CHARS + 1) })).message).toContain("found 65 characters");
+    expect(parseCommandBody("ack", { note: wide.repeat(ACK_NOTE_MAX_CHARS) }).note).toHaveLength(2 * ACK_NOTE_MAX_CHARS);
+    expect(apiError(() => parseCommandBody("ack", { note: wide.repeat(ACK_NOTE_MAX_CHARS + 1) })).message).toContain("found 501");
   });
 
   it.each([
     [null, /expected a JSON object .* found null/],
     [[1, 2], /found an array of 2/],
     ["A. Operator", /found "A. Operator"/],
-    [{}, /field "by": expected the name .* found nothing/],
-    [{ by: 42 }, /field "by": .* found number 42/],
-    [{ by: "   " }, /field "by": expected 1 to 64 printable characters, found 0 characters/],
-    [{ by: "x".repeat(65) }, /found 65 characters/],
-    [{ by: "A\nB" }, /found a control character/],
-    [{ by: "A", note: 7 }, /field "note": expected a string .* found number 7/],
-    [{ by: "A", note: "n".repeat(ACK_NOTE_MAX_CHARS + 1) }, /field "note": expected at most 500 characters, found 501/],
-    [{ by: "A", notes: "typo" }, /expected only the fields "by" and "note", found "notes"/],
+    [{ note: 7 }, /field "note": expected a string .* found number 7/],
+    [{ note: "n".repeat(ACK_NOTE_MAX_CHARS + 1) }, /field "note": expected at most 500 characters, found 501/],
+    [{ notes: "typo" }, /expected only the field "note", found "notes"/],
+    // Who and in what role come from the login session, never from the body.
+    [{ by: "A. Operator" }, /field "by": not accepted; who gives a command and in what role come from the login session/],
+    [{ role: "engineer", note: "x" }, /field "role": not accepted/],
   ])("refuses %j", (body, why) => {
-    const err = apiError(() => parseAckBody(body));
+    const err = apiError(() => parseCommandBody("ack", body));
     expect(err.code).toBe("BAD_BODY");
     expect(err.message).toMatch(why);
+  });
+});
+
+describe("parseAuditQuery", () => {
+  it("defaults to 100 and accepts up to the maximum", () => {
+    expect(parseAuditQuery({})).toEqual({ limit: 100 });
+    expect(parseAuditQuery({ limit: String(AUDIT_LIMIT_MAX) })).toEqual({ limit: AUDIT_LIMIT_MAX });
+  });
+
+  it.each(["0", "1001", "x"])("refuses limit=%s", (limit) => {
+    expect(apiError(() => parseAuditQuery({ limit })).message).toBe(`query parameter "limit": expected an integer from 1 to 1000, found "${limit}"`);
   });
 });
 
@@ -202,33 +212,32 @@ describe("parseCommandName", () => {
 
 describe("parseCommandBody", () => {
   it("keeps what each command takes, trimmed, and nothing else", () => {
-    expect(parseCommandBody("reset", { by: " A ", note: " done " })).toEqual({ by: "A", note: "done" });
-    expect(parseCommandBody("shelve", { by: "A", reason: " purge ", durationS: 900 })).toEqual({ by: "A", reason: "purge", durationS: 900 });
-    expect(parseCommandBody("shelve", { by: "A", reason: "purge", oneShot: true })).toEqual({ by: "A", reason: "purge", oneShot: true });
+    expect(parseCommandBody("reset", { note: " done " })).toEqual({ note: "done" });
+    expect(parseCommandBody("shelve", { reason: " purge ", durationS: 900 })).toEqual({ reason: "purge", durationS: 900 });
+    expect(parseCommandBody("shelve", { reason: "purge", oneShot: true })).toEqual({ reason: "purge", oneShot: true });
     // A one-shot may carry its own bound; the daemon caps it at the site's maximum.
-    expect(parseCommandBody("shelve", { by: "A", reason: "purge", oneShot: true, durationS: 600 })).toEqual({ by: "A", reason: "purge", oneShot: true, durationS: 600 });
-    expect(parseCommandBody("unshelve", { by: "A" })).toEqual({ by: "A" });
-    expect(parseCommandBody("unshelve", { by: "A", reason: "" })).toEqual({ by: "A" });
-    expect(parseCommandBody("out-of-service", { by: "E", reason: "r", role: "engineer" })).toEqual({ by: "E", reason: "r", role: "engineer" });
-    // The role is optional here: without it the daemon answers 403 (see app.test.ts).
-    expect(parseCommandBody("return-to-service", { by: "E" })).toEqual({ by: "E" });
+    expect(parseCommandBody("shelve", { reason: "purge", oneShot: true, durationS: 600 })).toEqual({ reason: "purge", oneShot: true, durationS: 600 });
+    expect(parseCommandBody("unshelve", {})).toEqual({});
+    expect(parseCommandBody("unshelve", { reason: "" })).toEqual({});
+    expect(parseCommandBody("out-of-service", { reason: "r" })).toEqual({ reason: "r" });
+    expect(parseCommandBody("return-to-service", {})).toEqual({});
   });
 
   it("counts a reason in characters and allows exactly the maximum", () => {
     const wide = "\u{1D49C}";
-    expect(parseCommandBody("shelve", { by: "A", reason: wide.repeat(REASON_MAX_CHARS), oneShot: true }).reason).toHaveLength(2 * REASON_MAX_CHARS);
-    expect(apiError(() => parseCommandBody("shelve", { by: "A", reason: wide.repeat(REASON_MAX_CHARS + 1), oneShot: true })).message).toBe(
+    expect(parseCommandBody("shelve", { reason: wide.repeat(REASON_MAX_CHARS), oneShot: true }).reason).toHaveLength(2 * REASON_MAX_CHARS);
+    expect(apiError(() => parseCommandBody("shelve", { reason: wide.repeat(REASON_MAX_CHARS + 1), oneShot: true })).message).toBe(
       `request body field "reason": expected at most ${REASON_MAX_CHARS} characters, found ${REASON_MAX_CHARS + 1}`,
     );
   });
 
   it.each([
-    ["shelve", { by: "A", reason: "r", durationS: Number.MAX_SAFE_INTEGER + 2 }, /"durationS": expected a whole number of seconds/],
-    ["shelve", { by: "A", reason: "r", durationS: -60 }, /found number -60/],
-    ["shelve", { by: "A", reason: "r\u0007", oneShot: true }, /found a control character/],
-    ["out-of-service", { by: "A", reason: "", role: "engineer" }, /"reason": expected why the advisory is taken out of service \(1 to 500 characters\), found an empty string/],
-    ["out-of-service", { by: "A", reason: "r", role: "Engineer" }, /"role": expected "operator" or "engineer" .* found "Engineer"/],
-    ["unshelve", "A", /request body for unshelve: expected a JSON object such as \{"by": "A. Operator"\}, found "A"/],
+    ["shelve", { reason: "r", durationS: Number.MAX_SAFE_INTEGER + 2 }, /"durationS": expected a whole number of seconds/],
+    ["shelve", { reason: "r", durationS: -60 }, /found number -60/],
+    ["shelve", { reason: "r\u0007", oneShot: true }, /found a control character/],
+    ["out-of-service", { reason: "" }, /"reason": expected why the advisory is taken out of service \(1 to 500 characters\), found an empty string/],
+    ["out-of-service", { reason: "r", role: "engineer" }, /field "role": not accepted; .* from the login session \(POST \/api\/login\), expected only "reason"/],
+    ["unshelve", "A", /request body for unshelve: expected a JSON object such as \{"reason": "..."\}, found "A"/],
   ] as const)("refuses %s %j", (kind, body, why) => {
     const err = apiError(() => parseCommandBody(kind, body));
     expect(err.code).toBe("BAD_BODY");

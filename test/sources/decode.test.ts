@@ -65,3 +65,42 @@ describe("JSON payloads", () => {
     );
   });
 });
+
+describe("function check flag in the value's own message (functionCheckPath)", () => {
+  const fcDec = makeDecoder({ ...signal, functionCheckPath: "status.fc" }, source);
+  const runFc = (body: unknown) => {
+    const buf = Buffer.from(JSON.stringify(body));
+    const { parsed, error } = parseBody(buf, "json");
+    return fcDec.decode(buf, parsed, error, NOW);
+  };
+
+  it.each([
+    [true, true], [1, true], ["true", true], ["ON", true], ["yes", true],
+    [false, false], [0, false], ["false", false], ["off", false], ["", false], [null, false],
+  ])("flag %j: in function check %s, the value still arrives", (flag, inCheck) => {
+    const r = runFc({ value: -3.2, status: { fc: flag } });
+    expect(r.reject).toBeUndefined();
+    expect(r.sample.quality).toBe("good");
+    expect(r.sample.value).toBeCloseTo(-320, 9);
+    expect(r.sample.functionCheck === true).toBe(inCheck);
+  });
+
+  it("an absent flag means not in function check", () => {
+    const r = runFc({ value: 1 });
+    expect(r.sample.functionCheck).toBeUndefined();
+    expect(r.sample.quality).toBe("good");
+  });
+
+  it("a flag that cannot be read makes the value uncertain (never a guess either way) and says where", () => {
+    for (const flag of ["maybe", { on: true }, [1]]) {
+      const r = runFc({ value: 1, status: { fc: flag } });
+      expect(r.sample.quality).toBe("uncertain");
+      expect(r.sample.functionCheck).toBeUndefined();
+      expect(r.sample.qualityReason).toMatch(/function check flag at "status\.fc"/);
+    }
+  });
+
+  it("a signal without functionCheckPath ignores such a field", () => {
+    expect(run(JSON.stringify({ value: 1, status: { fc: true } })).sample.functionCheck).toBeUndefined();
+  });
+});

@@ -46,7 +46,8 @@ describe("MqttSource", () => {
     expect(got.slice(1, 4).map((s) => [s.quality, s.qualityReason])).toEqual([["bad", "not-json"], ["bad", "not-a-number"], ["bad", "not-a-number"]]);
     expect(got[4]!.value).toBeCloseTo(101_325, 6); // kPa -> Pa
     const st = src.stats();
-    expect(st).toMatchObject({ connected: true, samples: 2, rejected: 3 });
+    // Exact-topic subscriptions: the broker never sends it/unmapped, so nothing is unmatched.
+    expect(st).toMatchObject({ connected: true, samples: 2, rejected: 3, unmatched: 0, subscriptions: ["it/a", "it/b"] });
     expect(st.rejectedBy).toEqual({ "p.b:not-json": 1, "p.b:not-a-number": 2 });
     // The second not-a-number is counted but not logged again within the minute.
     expect(logs.filter((l) => l.includes("not-a-number"))).toHaveLength(1);

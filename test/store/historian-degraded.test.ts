@@ -22,6 +22,28 @@ afterEach(() => {
 
 const SIGNALS = Array.from({ length: 10 }, (_, i) => `VM2-TT-${110 + i}`);
 
+/**
+ * Pages of a new file with every migration applied: the caps below leave a fixed number of
+ * pages for data above it, so a migration that adds tables does not change what they test.
+ */
+function schemaPages(): number {
+  const { dir: d, cleanup: done } = tempDir();
+  try {
+    Historian.open({ path: join(d, "empty.db") }).close();
+    const db = new Database(join(d, "empty.db"), { readonly: true });
+    try {
+      return db.pragma("page_count", { simple: true }) as number;
+    } finally {
+      db.close();
+    }
+  } finally {
+    done();
+  }
+}
+// The caps were 20 and 40 pages when the schema took about 18 (up to migration 3).
+const NO_ROOM = schemaPages() + 2;
+const SOME_ROOM = schemaPages() + 22;
+
 /** Unsealed sample rows in the file (the append-only recent table). */
 function countSampleRows(path: string): number {
   const db = new Database(path, { readonly: true });
@@ -35,7 +57,7 @@ function countSampleRows(path: string): number {
 describe("Historian on a full file", () => {
   it("turns degraded without throwing, keeps the rows queued, and recovers without losing one", () => {
     const path = join(dir, "hist.db");
-    h = Historian.open({ path, maxPageCount: 40, maxBatchRows: 1000 });
+    h = Historian.open({ path, maxPageCount: SOME_ROOM, maxBatchRows: 1000 });
     const n = 20_000;
     for (let i = 0; i < n; i++) h.appendSample(sample(SIGNALS[i % 10] as string, T0 + Math.floor(i / 10) * 1000, i));
 
@@ -79,7 +101,7 @@ describe("Historian on a full file", () => {
 
   it("forgets the series ids a failed batch assigned (they were rolled back)", () => {
     const path = join(dir, "hist.db");
-    h = Historian.open({ path, maxPageCount: 20, maxBatchRows: 50_000 });
+    h = Historian.open({ path, maxPageCount: NO_ROOM, maxBatchRows: 50_000 });
     // 2,000 new signals in one batch that cannot fit: their series rows are inserted, then rolled back.
     const names = Array.from({ length: 2000 }, (_, i) => `VM2-XT-${String(i).padStart(4, "0")}`);
     for (let r = 0; r < 10; r++) for (const name of names) h.appendSample(sample(name, T0 + r * 1000, r));
@@ -103,7 +125,7 @@ describe("Historian on a full file", () => {
 
   it("stays bounded while degraded: the oldest samples are dropped and counted, appends never throw", () => {
     const path = join(dir, "hist.db");
-    h = Historian.open({ path, maxPageCount: 20, maxBatchRows: 100_000, maxQueueRows: 5000 });
+    h = Historian.open({ path, maxPageCount: NO_ROOM, maxBatchRows: 100_000, maxQueueRows: 5000 });
     for (let i = 0; i < 12_000; i++) h.appendSample(sample("VM2-AT-121", T0 + i, i));
     h.flush();
     expect(h.stats()).toMatchObject({ state: "degraded", queueDepth: 5000, droppedRows: 7000, rowsWritten: 0 });
@@ -117,7 +139,7 @@ describe("Historian on a full file", () => {
 
   it("counts rows it could not write before closing as dropped", () => {
     const path = join(dir, "hist.db");
-    const hh = Historian.open({ path, maxPageCount: 20, maxBatchRows: 100_000 });
+    const hh = Historian.open({ path, maxPageCount: NO_ROOM, maxBatchRows: 100_000 });
     for (let i = 0; i < 10_000; i++) hh.appendSample(sample("VM2-AT-121", T0 + i, i));
     hh.close();
     expect(hh.stats()).toMatchObject({ state: "degraded", queueDepth: 0, droppedRows: 10_000, rowsWritten: 0 });

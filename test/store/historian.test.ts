@@ -4,7 +4,7 @@ import Database from "better-sqlite3";
 import { afterEach, beforeEach, describe, expect, it, vi } from "vitest";
 import type { Sample } from "../../src/core/types.js";
 import { Historian, HistorianOpenError } from "../../src/store/historian.js";
-import { LATEST_SCHEMA_VERSION } from "../../src/store/migrations.js";
+import { LATEST_SCHEMA_VERSION, MIGRATIONS } from "../../src/store/migrations.js";
 import { decodeQualityRuns } from "../../src/store/chunk.js";
 import { T0, derived, sample, tempDir, transition } from "./helpers.js";
 
@@ -349,13 +349,11 @@ describe("Historian file", () => {
       userVersion: db.pragma("user_version", { simple: true }),
       application: db.prepare("SELECT value FROM meta WHERE key = 'application'").pluck().get(),
     }));
-    expect(rows).toEqual([
-      { version: 1, applied_at_ms: T0 },
-      { version: 2, applied_at_ms: T0 },
-      { version: 3, applied_at_ms: T0 },
-    ]);
-    expect(userVersion).toBe(3);
-    expect(LATEST_SCHEMA_VERSION).toBe(3);
+    // Numbered 1, 2, 3 ... without gaps, each applied once, at the first open.
+    expect(rows).toEqual(MIGRATIONS.map((_m, i) => ({ version: i + 1, applied_at_ms: T0 })));
+    expect(MIGRATIONS.map((m) => m.version)).toEqual(MIGRATIONS.map((_, i) => i + 1));
+    expect(userVersion).toBe(LATEST_SCHEMA_VERSION);
+    expect(LATEST_SCHEMA_VERSION).toBeGreaterThanOrEqual(4);
     expect(application).toBe("millwarden");
   });
 
@@ -369,16 +367,28 @@ describe("Historian file", () => {
       "advisory_transitions",
       "advisory_transitions_advisory_at",
       "advisory_transitions_at",
+      "audit_log",
+      "audit_log_at",
       "chunks",
       "chunks_last",
       "chunks_series_last",
       "meta",
+      "notify_deliveries",
+      "notify_deliveries_channel",
+      "notify_deliveries_outbox",
+      "notify_outbox",
+      "notify_outbox_created",
+      "notify_outbox_due",
+      "notify_state",
       "plant_events",
       "plant_events_at",
+      "push_subscriptions",
+      "push_subscriptions_person",
       "recent",
       "rollups_1m",
       "schema_migrations",
       "series",
+      "users",
     ]);
     const sqlOf = (n: string): string => tables.find((t) => t.name === n)?.sql ?? "";
     // A rowid table without an index or primary key: inserts append to its last page (sqlite.org/rowidtable.html).

@@ -1,0 +1,81 @@
+// Logging in on the glance screen and acknowledging an advisory, in a real browser, against the
+// real daemon (data clock) fed by the simulator's filter-smoulder scenario through the embedded
+// broker. The account is created the way `millwarden user add` does (the historian's account
+// store, with a scrypt hash); the browser then goes through the screen's own login form, and the
+// command travels with the session cookie and its CSRF token (src/server/auth.ts).
+import type { Browser } from "playwright-core";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import type { AdvisoryTransition, AdvisoryView } from "../../src/core/types.js";
+import { startEmbeddedBroker, type EmbeddedBroker } from "../../src/daemon/embedded-broker.js";
+import type { Daemon } from "../../src/daemon/daemon.js";
+import { hashPassword } from "../../src/server/passwords.js";
+import { runSimulator } from "../../src/sim/publish.js";
+import { demoConfigFor, startTestDaemon, tempDir, waitFor } from "../integration/helpers.js";
+import { HAVE_CHROMIUM, WALL, axeViolations, launchChromium, openPage, screenshot } from "./browser.js";
+
+const START = Date.UTC(2026, 10, 30, 5, 0, 0);
+const USER = "t.operator";
+// Test-only password; scrypt with reduced cost so the test does not spend seconds hashing.
+const PASSWORD = "tarnholm-line2-nightshift";
+
+describe.skipIf(!HAVE_CHROMIUM)("browser: log in on the glance screen and acknowledge an advisory", () => {
+  let broker: EmbeddedBroker;
+  let daemon: Daemon;
+  let dir: ReturnType<typeof tempDir>;
+  let browser: Browser;
+
+  beforeAll(async () => {
+    broker = await startEmbeddedBroker(0);
+    dir = tempDir("mw-browser-login-");
+    const prefix = `mw-browser-login/${process.pid}-${Math.random().toString(16).slice(2, 8)}`;
+    ({ daemon } = await startTestDaemon(demoConfigFor(broker.url, prefix, dir.path)));
+    daemon.historian.accounts().addUser(USER, "operator", await hashPassword(PASSWORD, { logN: 10, r: 8, p: 1 }), Date.now());
+    // The whole smoulder, as fast as the daemon takes it: its advisories stay on screen unacknowledged.
+    await runSimulator({ scenario: "filter-smoulder", mqttUrl: broker.url, topicPrefix: prefix, speed: 300, startTimeMs: START, seed: 11 });
+    await waitFor(() => daemon.engine.currentAdvisories().some((a) => a.id === "co-gradient-bf2" && (a.state === "unack" || a.state === "rtn-unack")), 20_000, "the bag filter CO gradient advisory, unacknowledged");
+    browser = await launchChromium();
+  }, 90_000);
+
+  afterAll(async () => {
+    await browser?.close();
+    await daemon?.stop();
+    await broker?.close();
+    dir?.remove();
+  });
+
+  it("asks for a login at Acknowledge, logs in through the form, and the acknowledgement is recorded with the user", async () => {
+    const { page, errors } = await openPage(browser, WALL, daemon.url!);
+    const row = page.locator('li.advisory[data-advisory-id="co-gradient-bf2"]');
+    const ack = row.getByRole("button", { name: /^Acknowledge/ });
+    await expect.poll(() => ack.isVisible(), { timeout: 15_000 }).toBe(true);
+    expect(await row.innerText()).toMatch(/unacknowledged/i);
+
+    await ack.click();
+    await expect.poll(() => page.locator("#login-panel").isVisible(), { timeout: 5_000 }).toBe(true);
+    expect(await page.locator("#login-why").innerText()).toMatch(/Log in to acknowledge/);
+    await page.locator("#login-user").fill(USER);
+    await page.locator("#login-password").fill(PASSWORD);
+    await page.locator("#login-submit").click();
+    await expect.poll(() => page.locator("#login-panel").isVisible(), { timeout: 10_000 }).toBe(false);
+    await expect.poll(() => page.locator("#session-who").innerText(), { timeout: 5_000 }).toContain(USER);
+    expect(await axeViolations(page)).toEqual([]);
+
+    // Logged in: the button opens the row's command form, its submit gives the command.
+    await ack.click();
+    const form = row.locator("form.cmd-form");
+    await expect.poll(() => form.isVisible(), { timeout: 5_000 }).toBe(true);
+    expect(await form.innerText()).toContain(`as ${USER}`);
+    await form.getByRole("button", { name: "Acknowledge" }).click();
+    await expect.poll(() => row.locator(".advisory-state").innerText(), { timeout: 10_000 }).toMatch(new RegExp(`acknowledged by ${USER.replace(".", "\\.")}`));
+    await screenshot(page, "glance-1920x1080-acknowledged");
+
+    // The daemon recorded it: the advisory and its ack transition carry the user, never a typed name.
+    const res = await fetch(`${daemon.url}/api/advisories?limit=1000`);
+    const body = (await res.json()) as { active: AdvisoryView[]; history: AdvisoryTransition[] };
+    const view = body.active.find((a) => a.id === "co-gradient-bf2");
+    expect(view?.ackedBy).toBe(USER);
+    expect(body.history.some((t) => t.advisoryId === "co-gradient-bf2" && t.transition === "ack" && t.by === USER)).toBe(true);
+    expect(errors).toEqual([]);
+    await page.context().close();
+  }, 60_000);
+});
