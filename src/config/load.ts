@@ -152,6 +152,15 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
     if (kind === "mqtt" && !s.topic) out.push(loc.at(["signals", i], `signal "${s.id}" from an MQTT source needs a topic`));
     if (kind === "opcua" && !s.nodeId) out.push(loc.at(["signals", i], `signal "${s.id}" from an OPC UA source needs a nodeId (e.g. ns=1;s=${s.tag})`));
     if (s.range && !(s.range[0] < s.range[1])) out.push(loc.at(["signals", i, "range"], `expected [low, high] with low < high; found [${s.range.join(", ")}]`));
+    if (s.unit === "Am3/h" && !s.actualConditions)
+      out.push(loc.at(["signals", i, "unit"], `a flow in Am3/h needs actualConditions: { temperature: <signal or { degC }>, gaugePressure: <signal> } to become Nm3/h`));
+    if (s.actualConditions && s.unit !== "Am3/h") out.push(loc.at(["signals", i, "actualConditions"], `actualConditions belong to a flow in Am3/h; this signal is in ${s.unit}`));
+  });
+  cfg.signals.forEach((s, i) => {
+    const c = s.actualConditions;
+    if (!c) return;
+    if (typeof c.temperature === "string") needSignal(["signals", i, "actualConditions", "temperature"], c.temperature, "temperature", "a temperature unit (degC, K, degF)");
+    if (c.gaugePressure) needSignal(["signals", i, "actualConditions", "gaugePressure"], c.gaugePressure, "pressure", "a pressure unit (Pa, hPa, mbar, kPa, bar)");
   });
   if (cfg.site.barometricSignal) needSignal(["site", "barometricSignal"], cfg.site.barometricSignal, "pressure", "a pressure unit (Pa, hPa, mbar, kPa, bar)");
 

@@ -176,6 +176,13 @@ const signal = z.strictObject({
   basis: z.enum(["wet", "dry"]).optional(),
   /** Id of the analyser it comes from, declared under analysers: (its health decides trust). */
   analyser: id.optional(),
+  /**
+   * For a flow in Am3/h: the gas temperature (a signal, or { degC } fixed) and the gauge pressure
+   * (a signal; absent = atmospheric) at the meter, to convert it to Nm³/h (DIN 1343: 0 °C, 1013.25 hPa).
+   */
+  actualConditions: z
+    .strictObject({ temperature: z.union([id, z.strictObject({ degC: z.number() })]), gaugePressure: id.optional() })
+    .optional(),
 })
   .refine((s) => !(s.sparkplug && s.topic), { message: "a Sparkplug signal is found by sparkplug: (group, node, device, metric): leave out topic:", path: ["topic"] })
   .refine((s) => !(s.sparkplug && (s.functionCheckPath || s.valuePath)), { message: "valuePath and functionCheckPath read a JSON message; a Sparkplug signal takes its value from its metric", path: ["sparkplug"] })

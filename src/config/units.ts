@@ -1,7 +1,7 @@
 // Engineering units a signal may arrive in, and their conversion to the core's
 // canonical units. The core only ever sees canonical values:
 //   temperature °C, pressure Pa, concentration % vol or ppm (never mixed),
-//   everything else as delivered (t/h, Nm³/h, kW, %, mA).
+//   everything else as delivered (t/h, Nm³/h, kW, %, mA); Am³/h becomes Nm³/h in the core.
 
 export type Quantity = "temperature" | "pressure" | "concentration-pct" | "concentration-ppm" | "other";
 
@@ -28,6 +28,9 @@ export const UNITS: Readonly<Record<string, UnitDef>> = {
   ppm: { quantity: "concentration-ppm", canonical: "ppm", toCanonical: same },
   "t/h": { quantity: "other", canonical: "t/h", toCanonical: same },
   "Nm3/h": { quantity: "other", canonical: "Nm³/h", toCanonical: same },
+  // Actual m³/h at the flow's own temperature and pressure: the core converts it to Nm³/h with
+  // the signal's actualConditions (src/physics/gas-flow.ts), sample by sample.
+  "Am3/h": { quantity: "other", canonical: "Nm³/h", toCanonical: same },
   kW: { quantity: "other", canonical: "kW", toCanonical: same },
   pct: { quantity: "other", canonical: "%", toCanonical: same },
   mA: { quantity: "other", canonical: "mA", toCanonical: same },

@@ -18,6 +18,7 @@ import { HealthMonitor } from "../analytics/health-monitor.js";
 import type { Advisory, PersistedAdvisory, RuleInput } from "../advisories/advisory.js";
 import { AdvisoryBoard } from "../advisories/board.js";
 import { quantitySignals } from "../advisories/dependencies.js";
+import { actualToNormal } from "../physics/gas-flow.js";
 import type { Monitor, TickContext } from "./calculator.js";
 import { derivedQuantities, stateKeys, type QuantityInfo } from "./quantities.js";
 import {
@@ -69,6 +70,8 @@ export class Engine {
   /** The monitors that take samples, in the same order (ingest runs for every sample). */
   private readonly ingesters: Monitor[];
   private readonly board: AdvisoryBoard;
+  /** Flows in Am3/h: converted to Nm3/h at each sample from the meter's temperature and pressure then. */
+  private readonly toNormalFlow = new Map<string, (s: Sample) => Sample>();
   private readonly wiring = new Map<string, RuleWiring>();
   /** Discrete states (phase, inerting, analyser health) as of the last tick, to report changes. */
   private readonly states = new Map<string, string | null>();
@@ -98,6 +101,7 @@ export class Engine {
       this.stateReaders.push({ key: k.key, read });
     }
     this.board = new AdvisoryBoard(cfg.rules, (r) => info.get(r.quantity) ?? { unit: "", label: r.quantity }, cfg.advisoryPolicy);
+    for (const sig of cfg.signals) if (sig.actualConditions) this.toNormalFlow.set(sig.id, this.normalFlowConverter(sig.actualConditions));
     const analyserOf = new Map(cfg.signals.map((s) => [s.id, s.analyser]));
     for (const r of cfg.rules) {
       const signals = r.states ? [] : quantitySignals(cfg, r.quantity);
@@ -106,14 +110,48 @@ export class Engine {
     }
   }
 
+  /**
+   * Am3/h → Nm3/h (DIN 1343) with the temperature and absolute pressure (site barometric plus the
+   * meter's gauge pressure) as trusted when the sample arrives; without them the flow is bad.
+   */
+  private normalFlowConverter(c: NonNullable<MillwardenConfig["signals"][number]["actualConditions"]>): (s: Sample) => Sample {
+    const site = this.cfg.site;
+    return (s) => {
+      if (s.quality === "bad" || !Number.isFinite(s.value)) return s;
+      const at = s.receiveTimeMs;
+      const missing: string[] = [];
+      let tC: number | null = null;
+      if (typeof c.temperature === "string") {
+        const t = this.trust(c.temperature, at);
+        if (t.ok) tC = t.value;
+        else missing.push(t.reason);
+      } else tC = c.temperature.degC;
+      let baroPa = site.barometricPressureHPa * 100;
+      if (site.barometricSignal) {
+        const b = this.trust(site.barometricSignal, at);
+        if (b.ok && b.value !== null) baroPa = b.value;
+      }
+      let gaugePa = 0;
+      if (c.gaugePressure) {
+        const g = this.trust(c.gaugePressure, at);
+        if (g.ok && g.value !== null) gaugePa = g.value;
+        else missing.push(g.reason);
+      }
+      if (tC === null || missing.length) return { ...s, value: Number.NaN, quality: "bad", qualityReason: `Am3/h to Nm3/h: ${missing.join("; ")}` };
+      return { ...s, value: actualToNormal(s.value, tC, baroPa + gaugePa) };
+    };
+  }
+
   /** Series names a trend can ask for: signal ids and derived keys. */
   seriesNames(): string[] {
     return [...this.signals.keys(), ...this.quantities.map((q) => q.key)];
   }
 
-  ingest(s: Sample): IngestOutcome {
-    const state = this.signals.get(s.signal);
+  ingest(sample: Sample): IngestOutcome {
+    const state = this.signals.get(sample.signal);
     if (!state) return "unknown-signal";
+    const convert = this.toNormalFlow.get(sample.signal);
+    const s = convert ? convert(sample) : sample;
     const before = state.duplicates;
     if (!state.accept(s)) return state.duplicates > before ? "duplicate" : "out-of-order";
     for (const m of this.ingesters) m.ingest!(s);

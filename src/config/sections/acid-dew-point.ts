@@ -58,7 +58,7 @@ export function checkAcidDewPoints(cfg: Section, sourceIds: ReadonlySet<string>,
     else if (s.from === "so2") ctx.needSignal(at("so3", "signal"), s.signal, "concentration-ppm", "ppm (SO2)");
     else {
       needSignalInUnit(ctx, units, at("so3", "fuelFeed"), s.fuelFeed, ["t/h"], "t/h (fuel feed)");
-      if (s.gasFlowNm3PerH.signal) needSignalInUnit(ctx, units, at("so3", "gasFlowNm3PerH", "signal"), s.gasFlowNm3PerH.signal, ["Nm3/h"], "Nm3/h (flue gas flow, wet)");
+      if (s.gasFlowNm3PerH.signal) needSignalInUnit(ctx, units, at("so3", "gasFlowNm3PerH", "signal"), s.gasFlowNm3PerH.signal, ["Nm3/h", "Am3/h"], "Nm3/h or Am3/h (flue gas flow, wet)");
     }
     const seen = new Set<string>();
     a.coldestTemperatures.forEach((t, k) => {

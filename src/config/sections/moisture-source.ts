@@ -154,7 +154,7 @@ export function checkMoistureSources(cfg: { signals: SignalLike[]; moistureSourc
         if (raw !== null && product !== null && product > raw) {
           ctx.problem(at("productMoisture"), `expected the product moisture (${shown(m.productMoisture)}) at most the raw moisture (${shown(m.rawMoisture)}): a mill dries the coal`);
         }
-        if (m.gasFlowNm3PerH.signal) needSignalInUnit(ctx, units, at("gasFlowNm3PerH", "signal"), m.gasFlowNm3PerH.signal, ["Nm3/h"], "Nm3/h (gas flow, wet)");
+        if (m.gasFlowNm3PerH.signal) needSignalInUnit(ctx, units, at("gasFlowNm3PerH", "signal"), m.gasFlowNm3PerH.signal, ["Nm3/h", "Am3/h"], "Nm3/h or Am3/h (gas flow, wet)");
         if (m.incomingGasH2o.signal) ctx.needSignal(at("incomingGasH2o", "signal"), m.incomingGasH2o.signal, "concentration-pct", "% vol (pctVol), wet basis");
         break;
       }

@@ -153,8 +153,8 @@ export function checkOxygen(cfg: { units: UnitLike[]; signals: SignalLike[] }, c
     if (p) {
       ctx.needSignal(at("purge", "inertFlowSignal"), p.inertFlowSignal);
       const f = signalById.get(p.inertFlowSignal);
-      if (f && f.unit !== "Nm3/h") {
-        ctx.problem(at("purge", "inertFlowSignal"), `signal "${p.inertFlowSignal}" is in ${f.unit}, expected Nm3/h`);
+      if (f && f.unit !== "Nm3/h" && f.unit !== "Am3/h") {
+        ctx.problem(at("purge", "inertFlowSignal"), `signal "${p.inertFlowSignal}" is in ${f.unit}, expected Nm3/h (or Am3/h with actualConditions)`);
       }
       if (!(p.targetO2PctVol > p.inertO2PctVol)) {
         ctx.problem(at("purge", "targetO2PctVol"), `expected a target above the inert gas's O2 (${p.inertO2PctVol} %): purging only approaches it; found ${p.targetO2PctVol} %`);

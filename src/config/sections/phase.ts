@@ -48,7 +48,7 @@ interface SignalLike {
 const INPUT_UNITS = [
   { key: "drivePower", unit: "kW", what: "kW" },
   { key: "feed", unit: "t/h", what: "t/h" },
-  { key: "inertFlow", unit: "Nm3/h", what: "Nm3/h" },
+  { key: "inertFlow", unit: "Nm3/h", what: "Nm3/h (or Am3/h with actualConditions)" },
   { key: "trip", unit: "state", what: 'unit "state" (non-zero = tripped)' },
   { key: "maintenance", unit: "state", what: 'unit "state" (non-zero = in maintenance)' },
 ] as const;
@@ -69,7 +69,9 @@ export function checkPhase(cfg: { units: UnitLike[]; signals: SignalLike[] }, ct
       if (!sid) continue;
       ctx.needSignal(at(key), sid);
       const s = signalById.get(sid);
-      if (s && s.unit !== unit) ctx.problem(at(key), `signal "${sid}" is in ${s.unit}, expected ${what}`);
+      // An actual flow is converted to a normal one in the core: it stands for Nm3/h.
+      const given = s?.unit === "Am3/h" ? "Nm3/h" : s?.unit;
+      if (s && given !== unit) ctx.problem(at(key), `signal "${sid}" is in ${s.unit}, expected ${what}`);
     }
     if (p.inertFlow && p.inertFlowOnNm3PerH === undefined) {
       ctx.problem(at("inertFlow"), "expected inertFlowOnNm3PerH with inertFlow: the flow at or above which inerting is on");
