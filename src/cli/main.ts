@@ -14,6 +14,7 @@ import { ADVISORY_ONLY } from "../core/types.js";
 import { runSimulator } from "../sim/publish.js";
 import { scenarioNames } from "../sim/plant.js";
 import { summarizeConfig } from "./summary.js";
+import { probeSources, renderProbe } from "./probe.js";
 import { replayCommand } from "./replay.js";
 import { UserCommandError, userCommand } from "./user.js";
 
@@ -26,7 +27,7 @@ const USAGE = `millwarden: advisory-only monitoring for coal grinding plants
 usage:
   millwarden run --config FILE [--log json|text]
   millwarden demo [--source mqtt|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
-  millwarden check --config FILE
+  millwarden check --config FILE [--connect [--wait S]]   validate; with --connect also listen to each source and report each signal
   millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
   millwarden export --config FILE --from T --to T [--signals ID,ID] > FILE.csv   history as CSV (time,signal,value,quality)
   millwarden replay --config FILE --input FILE [--from T --to T] [--out events.jsonl] [--compare OTHER.yaml] [--position NAME] [--json]
@@ -267,11 +268,18 @@ async function cmdPki(args: string[]): Promise<number> {
   throw new UsageError(`pki expects list, show or trust; found ${verb === undefined ? "nothing" : `"${verb}"`}`);
 }
 
-function cmdCheck(args: string[]): number {
-  const { values } = parseArgs({ args, options: { config: { type: "string" } } });
+async function cmdCheck(args: string[]): Promise<number> {
+  const { values } = parseArgs({ args, options: { config: { type: "string" }, connect: { type: "boolean", default: false }, wait: { type: "string", default: "10" } } });
   const cfg = requireConfig(values.config);
   process.stdout.write(summarizeConfig(cfg, values.config!) + "\n");
-  return 0;
+  if (!values.connect) return 0;
+  const waitS = Number(values.wait);
+  if (!(Number.isFinite(waitS) && waitS > 0 && waitS <= 600)) throw new UsageError(`--wait: expected seconds between 1 and 600, found "${values.wait}"`);
+  process.stdout.write(`\nconnecting to ${cfg.sources.length} source(s), listening ${waitS} s (read-only) ...\n`);
+  const r = await probeSources(cfg, waitS * 1000, (level, msg) => process.stderr.write(`${level}: ${msg}\n`));
+  const out = renderProbe(r, waitS);
+  process.stdout.write(out.text + "\n");
+  return out.ok ? 0 : 1;
 }
 
 async function cmdSimulate(args: string[]): Promise<number> {
@@ -315,7 +323,7 @@ export async function main(argv: string[]): Promise<number> {
       case "demo":
         return await cmdDemo(rest);
       case "check":
-        return cmdCheck(rest);
+        return await cmdCheck(rest);
       case "simulate":
         return await cmdSimulate(rest);
       case "pki":
