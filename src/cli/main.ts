@@ -14,6 +14,7 @@ import { ADVISORY_ONLY } from "../core/types.js";
 import { runSimulator } from "../sim/publish.js";
 import { scenarioNames } from "../sim/plant.js";
 import { summarizeConfig } from "./summary.js";
+import { asSparkplugConfig } from "../sim/sparkplug-frames.js";
 import { probeSources, renderProbe } from "./probe.js";
 import { replayCommand } from "./replay.js";
 import { UserCommandError, userCommand } from "./user.js";
@@ -26,9 +27,9 @@ const USAGE = `millwarden: advisory-only monitoring for coal grinding plants
 
 usage:
   millwarden run --config FILE [--log json|text]
-  millwarden demo [--source mqtt|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
+  millwarden demo [--source mqtt|sparkplug|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
   millwarden check --config FILE [--connect [--wait S]]   validate; with --connect also listen to each source and report each signal
-  millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N]
+  millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N] [--payload json|sparkplug [--group G --node N]]
   millwarden export --config FILE --from T --to T [--signals ID,ID] > FILE.csv   history as CSV (time,signal,value,quality)
   millwarden replay --config FILE --input FILE [--from T --to T] [--out events.jsonl] [--compare OTHER.yaml] [--position NAME] [--json]
                                                 history (CSV or historian) through the core: events and the alarm-management summary
@@ -100,11 +101,11 @@ async function cmdDemo(args: string[]): Promise<number> {
   });
   const speed = num(values.speed, "speed", 1);
   if (speed === 0) throw new UsageError("--speed must be above 0 for the demo");
-  if (values.source !== "mqtt" && values.source !== "opcua") throw new UsageError(`--source expects mqtt or opcua; found "${values.source}"`);
+  if (values.source !== "mqtt" && values.source !== "sparkplug" && values.source !== "opcua") throw new UsageError(`--source expects mqtt, sparkplug or opcua; found "${values.source}"`);
   const log = makeLogger("text");
   const base = loadConfig(DEMO_CONFIG);
   const abort = new AbortController();
-  const plant = values.source === "mqtt" ? await demoOverMqtt(base, values, speed, abort.signal, log) : await demoOverOpcUa(base, values, speed, abort.signal, log);
+  const plant = values.source === "opcua" ? await demoOverOpcUa(base, values, speed, abort.signal, log) : await demoOverMqtt(base, values, speed, abort.signal, log, values.source === "sparkplug");
   const cfg: MillwardenConfig = {
     ...plant.config,
     // Faster than real time, the box's clock no longer matches the data: follow the data's own time.
@@ -115,6 +116,10 @@ async function cmdDemo(args: string[]): Promise<number> {
   // The demo runs demo.yaml with its source, storage and port replaced; the record names the file it started from.
   const configFile = { path: DEMO_CONFIG, sha256: createHash("sha256").update(readFileSync(DEMO_CONFIG)).digest("hex") };
   const daemon = await Daemon.start({ config: cfg, log, configFile });
+  if (plant.release) {
+    await Promise.all(daemon.sources.map((s) => s.whenReady()));
+    plant.release();
+  }
   process.stdout.write(
     `\nmillwarden demo: simulated plant "Tarnholm Works, coal grinding line 2", scenario "${values.scenario}" at ${speed}x\n` +
       `  ${plant.describe}\n  database              ${cfg.storage.path}\n  dashboard             ${daemon.url}\n` +
@@ -134,11 +139,24 @@ interface DemoPlant {
   describe: string;
   stopped: Promise<unknown>;
   close(): Promise<void>;
+  /** Sparkplug B: the simulator waits for this, so the daemon is subscribed before the node's birth. */
+  release?: () => void;
 }
 
 /** The simulator publishes over MQTT into a broker inside this process. */
-async function demoOverMqtt(base: MillwardenConfig, values: { scenario: string; "broker-port"?: string }, speed: number, signal: AbortSignal, log: ReturnType<typeof makeLogger>): Promise<DemoPlant> {
+async function demoOverMqtt(
+  base: MillwardenConfig,
+  values: { scenario: string; "broker-port"?: string },
+  speed: number,
+  signal: AbortSignal,
+  log: ReturnType<typeof makeLogger>,
+  sparkplugB = false,
+): Promise<DemoPlant> {
   const broker = await startEmbeddedBroker(num(values["broker-port"], "broker-port", DEMO_BROKER_PORT));
+  // A Sparkplug host that comes after the birth reads nothing until the next one (and never asks
+  // for one, which would be a write): the simulator starts once the daemon listens.
+  let release = () => {};
+  const gate = sparkplugB ? new Promise<void>((ok) => (release = ok)) : undefined;
   const stopped = runSimulator({
     scenario: values.scenario,
     mqttUrl: broker.url,
@@ -148,10 +166,14 @@ async function demoOverMqtt(base: MillwardenConfig, values: { scenario: string; 
     loop: true,
     signal,
     log: (m) => log.info(m),
+    ...(sparkplugB ? { payload: "sparkplug" as const, startAfter: gate } : {}),
   }).catch((e: Error) => log.error(`simulator stopped: ${e.message}`));
+  const onBroker: MillwardenConfig = { ...base, sources: base.sources.map((s) => (s.kind === "mqtt" ? { ...s, url: broker.url } : s)) };
   return {
-    config: { ...base, sources: base.sources.map((s) => (s.kind === "mqtt" ? { ...s, url: broker.url } : s)) },
-    describe: `embedded MQTT broker  ${broker.url}`,
+    // Sparkplug B: the same tags as metrics of the simulator's edge node (src/sim/sparkplug-frames.ts).
+    config: sparkplugB ? asSparkplugConfig(onBroker) : onBroker,
+    describe: `embedded MQTT broker  ${broker.url}${sparkplugB ? " (Sparkplug B)" : ""}`,
+    release: () => release(),
     stopped,
     close: () => broker.close(),
   };
@@ -292,9 +314,13 @@ async function cmdSimulate(args: string[]): Promise<number> {
       prefix: { type: "string", default: "tarnholm/cg2" },
       loop: { type: "boolean", default: false },
       seed: { type: "string" },
+      payload: { type: "string", default: "json" },
+      group: { type: "string", default: "cg2" },
+      node: { type: "string", default: "sim-cg2" },
     },
   });
   if (!values.scenario) throw new UsageError(`--scenario is required: one of ${scenarioNames().join(", ")}`);
+  if (values.payload !== "json" && values.payload !== "sparkplug") throw new UsageError(`--payload expects json or sparkplug; found "${values.payload}"`);
   if (!values.mqtt) throw new UsageError("--mqtt URL is required, e.g. mqtt://127.0.0.1:1883");
   const abort = new AbortController();
   process.once("SIGINT", () => abort.abort());
@@ -309,6 +335,8 @@ async function cmdSimulate(args: string[]): Promise<number> {
     loop: values.loop,
     signal: abort.signal,
     log: (m) => process.stderr.write(m + "\n"),
+    payload: values.payload,
+    sparkplug: { group: values.group, node: values.node },
   });
   process.stderr.write(`published ${r.messages} messages in ${r.frames} frames\n`);
   return 0;

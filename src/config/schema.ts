@@ -194,6 +194,9 @@ const signal = z.strictObject({
     return { ...s, topic: sp.device === undefined ? `spBv1.0/${sp.group}/NDATA/${sp.node}` : `spBv1.0/${sp.group}/DDATA/${sp.node}/${sp.device}` };
   });
 
+/** One signal as a config file gives it (for code that builds configs, e.g. the simulator's Sparkplug variant). */
+export const signalSchema = signal;
+
 const unit = z.strictObject({
   id,
   name: text,

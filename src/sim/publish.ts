@@ -14,6 +14,7 @@ import mqtt from "mqtt";
 import type { MqttClient } from "mqtt";
 import { setTimeout as sleepMs } from "node:timers/promises";
 import { createScenario, type Scenario, type SimFrame } from "./plant.js";
+import { SparkplugEdge, type SparkplugNodeId } from "./sparkplug-frames.js";
 
 export interface SimulatorOptions {
   scenario: string;
@@ -33,6 +34,12 @@ export interface SimulatorOptions {
   log?: (line: string) => void;
   /** Called after each frame has been handed to the client. */
   onFrame?: (f: SimFrame) => void;
+  /** json (default): one message per tag under topicPrefix; sparkplug: a Sparkplug B edge node (src/sim/sparkplug-frames.ts). */
+  payload?: "json" | "sparkplug";
+  /** The edge node's group and node id (default cg2 / sim-cg2). */
+  sparkplug?: SparkplugNodeId;
+  /** Connect, then wait for this before the first frame (e.g. until a Sparkplug host listens). */
+  startAfter?: Promise<void>;
 }
 
 export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: number; messages: number }> {
@@ -62,8 +69,19 @@ export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: nu
   const stepS = scenario.stepS;
   if (signal?.aborted) return { frames: 0, messages: 0 };
 
-  const client = await connect(opts.mqttUrl, protocolVersion, signal);
+  const edge = opts.payload === "sparkplug" ? new SparkplugEdge(opts.sparkplug ?? { group: "cg2", node: "sim-cg2" }) : null;
+  const client = await connect(opts.mqttUrl, protocolVersion, signal, edge?.nextSession(opts.startTimeMs));
   if (client === null) return { frames: 0, messages: 0 };
+  // Sparkplug: every (re)connection is a new session: a new will (bdSeq + 1) for the next one,
+  // and a birth before the next data.
+  let birthDue = true;
+  if (edge) {
+    client.on("close", () => {
+      const will = edge.nextSession(Date.now());
+      client.options.will = { topic: will.topic, payload: will.payload, qos: 0, retain: false };
+      birthDue = true;
+    });
+  }
   log(`simulator: connected to ${opts.mqttUrl} (MQTT ${protocolVersion === 4 ? "3.1.1" : "5"})`);
   let offlineLogged = false;
   client.on("offline", () => {
@@ -82,6 +100,8 @@ export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: nu
   });
   client.on("connect", () => (lastError = ""));
 
+  if (opts.startAfter) await Promise.race([opts.startAfter, new Promise<void>((ok) => signal?.addEventListener("abort", () => ok(), { once: true }))]);
+
   let frames = 0;
   let messages = 0;
   let dropped = 0;
@@ -91,7 +111,7 @@ export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: nu
   const t0 = performance.now();
   log(
     `simulator: scenario "${scenario.name}" (${scenario.durationS} s at ${stepS} s steps${scenario.onsetS !== null ? `, onset at ${scenario.onsetS} s` : ""}), ` +
-      `speed ${fast ? "as fast as possible" : `${speed}x`}, topics ${topicPrefix}/<tag>`,
+      `speed ${fast ? "as fast as possible" : `${speed}x`}, ${edge ? `Sparkplug B edge node ${edge.topic("NDATA")}` : `topics ${topicPrefix}/<tag>`}`,
   );
 
   try {
@@ -116,9 +136,17 @@ export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: nu
       if (fast && !client.connected) await waitForConnection(client, signal);
       if (signal?.aborted) break;
 
-      const sent = await publishFrame(client, topicPrefix, frame, signal);
-      messages += sent;
-      dropped += frame.values.length - sent;
+      if (edge) {
+        const m = birthDue ? edge.birth(frame) : edge.data(frame);
+        const ok = await publishOne(client, m.topic, m.payload, signal);
+        if (ok) birthDue = false;
+        messages += ok ? 1 : 0;
+        dropped += ok ? 0 : frame.values.length;
+      } else {
+        const sent = await publishFrame(client, topicPrefix, frame, signal);
+        messages += sent;
+        dropped += frame.values.length - sent;
+      }
       frames++;
       framesInLoop++;
       opts.onFrame?.(frame);
@@ -128,6 +156,20 @@ export async function runSimulator(opts: SimulatorOptions): Promise<{ frames: nu
   }
   log(`simulator: stopped after ${frames} frames, ${messages} messages${dropped > 0 ? `, ${dropped} dropped while the broker was away` : ""}`);
   return { frames, messages };
+}
+
+/** One message, waiting for the socket as publishFrame does; true when it went out. */
+async function publishOne(client: MqttClient, topic: string, payload: Buffer, signal: AbortSignal | undefined): Promise<boolean> {
+  let called = false;
+  let ok = false;
+  let wake: (() => void) | null = null;
+  client.publish(topic, payload, { qos: 0 }, (err) => {
+    called = true;
+    ok = !err;
+    wake?.();
+  });
+  if (!called) await untilCalledClosedOrAborted(client, (resolve) => (wake = resolve), signal);
+  return ok;
 }
 
 async function publishFrame(client: MqttClient, topicPrefix: string, frame: SimFrame, signal: AbortSignal | undefined): Promise<number> {
@@ -177,11 +219,12 @@ async function closeClient(client: MqttClient): Promise<void> {
   if (!(await Promise.race([graceful, timer]))) await client.endAsync(true).catch(() => undefined);
 }
 
-async function connect(url: string, protocolVersion: 4 | 5, signal: AbortSignal | undefined): Promise<MqttClient | null> {
+async function connect(url: string, protocolVersion: 4 | 5, signal: AbortSignal | undefined, will?: { topic: string; payload: Buffer }): Promise<MqttClient | null> {
   const pending = mqtt.connectAsync(
     url,
     {
       protocolVersion,
+      ...(will ? { will: { topic: will.topic, payload: will.payload, qos: 0 as const, retain: false } } : {}),
       clean: true,
       clientId: `millwarden-sim-${process.pid}-${Math.floor(Math.random() * 0xffffff).toString(16)}`,
       queueQoSZero: false,
