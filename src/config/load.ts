@@ -196,6 +196,7 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
       }
       if (!r.tier) out.push(loc.at(["rules", i], `a rule with states: needs tier: (notice, caution or warning)`));
       if (r.direction || r.tiers) out.push(loc.at(["rules", i, r.direction ? "direction" : "tiers"], `a rule with states: takes tier:, not direction: or tiers:`));
+      if (r.rate) out.push(loc.at(["rules", i, "rate"], `a rule with states: has no rate of change: leave out rate:`));
       return;
     }
     if (!r.direction || !r.tiers) {

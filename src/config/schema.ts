@@ -225,6 +225,11 @@ const rule = z.strictObject({
   /** Threshold rule: direction and thresholds per tier. */
   direction: z.enum(["high", "low"]).optional(),
   tiers: tierThresholds.optional(),
+  /**
+   * Rate rule: the thresholds apply to the quantity's rate of change per minute (least squares
+   * over windowS, known once the values cover half of it; none across an unknown value).
+   */
+  rate: z.strictObject({ windowS: positive }).optional(),
   /** State rule: active while the state key holds one of these values, at this tier. */
   states: z.array(z.string().min(1)).min(1).optional(),
   tier: z.enum(["notice", "caution", "warning"]).optional(),

@@ -19,6 +19,7 @@ import type { Advisory, PersistedAdvisory, RuleInput } from "../advisories/advis
 import { AdvisoryBoard } from "../advisories/board.js";
 import { quantitySignals } from "../advisories/dependencies.js";
 import { actualToNormal } from "../physics/gas-flow.js";
+import { RollingLinearFit } from "../analytics/rolling-fit.js";
 import type { Monitor, TickContext } from "./calculator.js";
 import { derivedQuantities, stateKeys, type QuantityInfo } from "./quantities.js";
 import {
@@ -72,6 +73,8 @@ export class Engine {
   private readonly board: AdvisoryBoard;
   /** Flows in Am3/h: converted to Nm3/h at each sample from the meter's temperature and pressure then. */
   private readonly toNormalFlow = new Map<string, (s: Sample) => Sample>();
+  /** Rate rules: least squares over the rule's window of the quantity's values at the ticks. */
+  private readonly rateFits = new Map<string, RollingLinearFit>();
   private readonly wiring = new Map<string, RuleWiring>();
   /** Discrete states (phase, inerting, analyser health) as of the last tick, to report changes. */
   private readonly states = new Map<string, string | null>();
@@ -100,7 +103,15 @@ export class Engine {
         family === "phase" ? () => this.phases.phaseOf(id) : family === "inerting" ? () => this.oxygen.inertingStateOf(id) : () => this.health.stateOf(id);
       this.stateReaders.push({ key: k.key, read });
     }
-    this.board = new AdvisoryBoard(cfg.rules, (r) => info.get(r.quantity) ?? { unit: "", label: r.quantity }, cfg.advisoryPolicy);
+    this.board = new AdvisoryBoard(
+      cfg.rules,
+      (r) => {
+        const q = info.get(r.quantity) ?? { unit: "", label: r.quantity };
+        return r.rate ? { unit: `${q.unit}/min`, label: `${q.label} rate of change (${r.rate.windowS} s)` } : q;
+      },
+      cfg.advisoryPolicy,
+    );
+    for (const r of cfg.rules) if (r.rate) this.rateFits.set(r.id, new RollingLinearFit(r.rate.windowS));
     for (const sig of cfg.signals) if (sig.actualConditions) this.toNormalFlow.set(sig.id, this.normalFlowConverter(sig.actualConditions));
     const analyserOf = new Map(cfg.signals.map((s) => [s.id, s.analyser]));
     for (const r of cfg.rules) {
@@ -218,6 +229,18 @@ export class Engine {
     else {
       const t = this.trust(r.quantity, nowMs);
       value = t.ok ? t.value : null;
+    }
+    const fit = this.rateFits.get(r.id);
+    if (fit) {
+      // The rate of the value seen at the ticks; an unknown value starts the window again.
+      if (value === null || !Number.isFinite(value)) {
+        fit.clear();
+        value = null;
+      } else {
+        fit.push(nowMs / 1000, value);
+        const slope = fit.spanS >= fit.windowS / 2 ? fit.slopePerS() : null;
+        value = slope === null ? null : slope * 60;
+      }
     }
     let suppressedBy: string | null = null;
     if (r.phases) {
