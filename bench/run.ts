@@ -12,6 +12,7 @@ const benches: { name: string; file: string; args: string[] }[] = [
   { name: "replay", file: "replay.ts", args: ["--hours", process.env.BENCH_REPLAY_HOURS ?? "24"] },
   { name: "glance", file: "glance.ts", args: [] },
   { name: "ingest", file: "ingest.ts", args: ["--messages", process.env.BENCH_INGEST_MESSAGES ?? "400000"] },
+  { name: "notify", file: "notify.ts", args: ["--raises", process.env.BENCH_NOTIFY_RAISES ?? "40"] },
 ];
 
 console.log(`millwarden benchmarks on ${os.cpus().length} × ${os.cpus()[0]?.model ?? "cpu"}, Node ${process.version}, ${new Date().toISOString()}`);

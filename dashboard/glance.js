@@ -434,7 +434,7 @@ function renderUnit(unit) {
   return el(
     "div",
     { class: "unit" },
-    el("div", { class: "unit-head" }, el("span", { class: "unit-name", text: unit.name }), badge),
+    el("div", { class: "unit-head" }, el("a", { class: "unit-name unit-link", href: `unit.html?unit=${encodeURIComponent(unit.id)}`, text: unit.name }), badge),
     figures,
     o2Bar(inv, tier),
     el("div", { class: "bar-scale", "aria-hidden": "true" }, ...["0", "7", "14", "21 % vol"].map((t) => el("span", { text: t }))),

@@ -48,7 +48,15 @@ export interface Limit {
   tier: Tier | null;
   label: string;
 }
-export function limitsFor(key: string, state: PlantState, history?: readonly AdvisoryTransition[]): Limit[];
+/** A rule as GET /api/rules gives it (src/server/rules.ts RuleView): what limitsFor needs. */
+export interface ConfiguredRule {
+  id: string;
+  quantity: string;
+  quantityUnit: string;
+  direction: "high" | "low" | null;
+  tiers: Partial<Record<Tier, number>> | null;
+}
+export function limitsFor(key: string, state: PlantState, history?: readonly AdvisoryTransition[], configured?: readonly ConfiguredRule[]): Limit[];
 
 export const MARKED_TRANSITIONS: ReadonlySet<string>;
 export interface AdvisoryMark {

@@ -166,10 +166,11 @@ export function trendColumns(points) {
  * Limits known for a series, from what the daemon tells: an O2 limit and its marginal band from
  * the unit's inerting view; for a rule's quantity, the threshold of each tier met so far (active
  * advisories carry their quantity and their present tier's limit; the stored transitions carry
- * the limit of every tier they reached, named by rule id).
+ * the limit of every tier they reached, named by rule id); and, with the configured rules of
+ * GET /api/rules, every tier of every rule on the key, raised or not.
  * Each: { value, tier|null, label }. Highest tier first.
  */
-export function limitsFor(key, state, history = []) {
+export function limitsFor(key, state, history = [], configured = []) {
   const out = [];
   const o2 = /^o2\.([^.]+)\.(o2PctVol|marginPctPt)$/.exec(key);
   if (o2) {
@@ -195,6 +196,12 @@ export function limitsFor(key, state, history = []) {
   for (const t of history) {
     const r = rules.get(t.ruleId);
     if (r && Number.isFinite(t.limit) && !r.tiers.has(t.tier)) r.tiers.set(t.tier, t.limit);
+  }
+  for (const c of configured) {
+    if (c.quantity !== key || !c.tiers) continue;
+    const r = rules.get(c.id) ?? { direction: c.direction, unit: c.quantityUnit, tiers: new Map() };
+    for (const [tier, value] of Object.entries(c.tiers)) if (Number.isFinite(value) && !r.tiers.has(tier)) r.tiers.set(tier, value);
+    rules.set(c.id, r);
   }
   for (const [ruleId, r] of rules) {
     for (const [tier, value] of r.tiers) {

@@ -41,6 +41,8 @@ let page = null;
 let plots = [];
 let refreshTimer = null;
 let loading = 0;
+/** The configured rules (GET /api/rules): every tier's limit is drawn, raised or not. */
+let configuredRules = [];
 
 
 // The same shapes as the glance screen: circle, triangle, diamond; hollow once the condition went.
@@ -405,7 +407,7 @@ async function refresh(reuseState = false) {
     for (const pane of panes) {
       pane.results = pane.series.map((s) => results.find((r) => r.series.key === s.key));
       pane.limits = [];
-      for (const s of pane.series) for (const l of limitsFor(s.key, state, adv.history)) if (!pane.limits.some((x) => x.value === l.value && x.tier === l.tier)) pane.limits.push(l);
+      for (const s of pane.series) for (const l of limitsFor(s.key, state, adv.history, configuredRules)) if (!pane.limits.some((x) => x.value === l.value && x.tier === l.tier)) pane.limits.push(l);
     }
     const marks = advisoryMarks(adv.history, win.fromMs, win.toMs, state.advisories);
     for (const p of plots) p.destroy();
@@ -458,6 +460,8 @@ async function start() {
     showProblem(`The daemon cannot be reached: ${err instanceof Error ? err.message : String(err)}`);
     return;
   }
+  // Without the rules (an older daemon) the limits of the advisories seen are still drawn.
+  configuredRules = await getJSON("/api/rules").then((b) => b.rules ?? [], () => []);
   catalog = seriesCatalog(state);
   const parsed = parseQuery(window.location.search, catalog, state);
   page = { range: parsed.range, series: parsed.series, zoom: parsed.zoom };

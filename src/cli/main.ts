@@ -1,7 +1,7 @@
 #!/usr/bin/env node
 // millwarden command line: parses arguments and calls the parts; no logic of its own.
 import { createHash } from "node:crypto";
-import { readFileSync } from "node:fs";
+import { readFileSync, rmSync, writeFileSync } from "node:fs";
 import { parseArgs } from "node:util";
 import { resolve } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -18,6 +18,8 @@ import { asSparkplugConfig } from "../sim/sparkplug-frames.js";
 import { probeSources, renderProbe } from "./probe.js";
 import { replayCommand } from "./replay.js";
 import { UserCommandError, userCommand } from "./user.js";
+import { FleetUsageError, fleetCommand } from "./fleet.js";
+import { backupCommand, reloadCommand } from "./operate.js";
 
 const ROOT = resolve(fileURLToPath(import.meta.url), "../../..");
 export const DEMO_CONFIG = resolve(ROOT, "config/demo.yaml");
@@ -26,7 +28,11 @@ const DEMO_BROKER_PORT = 18830;
 const USAGE = `millwarden: advisory-only monitoring for coal grinding plants
 
 usage:
-  millwarden run --config FILE [--log json|text]
+  millwarden run --config FILE [--log json|text] [--pid-file FILE]
+                                                SIGTERM/SIGINT: graceful stop (a second one forces it); SIGHUP: reload the config
+  millwarden reload --pid-file FILE [--config FILE]
+                                                check the config (when given), then tell the running daemon to reload it
+  millwarden backup --config FILE --to FILE     a consistent copy of the historian while the daemon runs
   millwarden demo [--source mqtt|sparkplug|opcua] [--speed N] [--scenario NAME] [--port N] [--broker-port N] [--data DIR]
   millwarden check --config FILE [--connect [--wait S]]   validate; with --connect also listen to each source and report each signal
   millwarden simulate --scenario NAME --mqtt URL [--speed N] [--prefix TOPIC] [--loop] [--seed N] [--payload json|sparkplug [--group G --node N]]
@@ -35,6 +41,8 @@ usage:
                                                 history (CSV or historian) through the core: events and the alarm-management summary
   millwarden pki list|show [--pki DIR]          OPC UA certificates: trusted and rejected servers, our own
   millwarden pki trust FILE [--pki DIR]         trust a server certificate (compare its thumbprint first)
+  millwarden fleet --mqtt URL [--prefix P] [--timeout S] [--once] [--serve PORT]
+                                                every box republishing to the site broker: units, states, advisories, liveness
   millwarden user add NAME --role viewer|operator|engineer|admin --config FILE
   millwarden user list|passwd NAME|remove NAME --config FILE
                                                 local accounts; the password is asked for (not shown) or read from stdin
@@ -77,13 +85,47 @@ function configWithHash(path: string | undefined): { cfg: MillwardenConfig; conf
 }
 
 async function cmdRun(args: string[]): Promise<number> {
-  const { values } = parseArgs({ args, options: { config: { type: "string" }, log: { type: "string", default: "json" } } });
+  const { values } = parseArgs({ args, options: { config: { type: "string" }, log: { type: "string", default: "json" }, "pid-file": { type: "string" } } });
   const { cfg, configFile } = configWithHash(values.config);
   const log = makeLogger(values.log === "text" ? "text" : "json");
-  const daemon = await Daemon.start({ config: cfg, log, configFile });
+  // SIGHUP: parse and cross-check the file again, then the daemon builds a new core from it and
+  // swaps it in; a bad file leaves the running config in place, its problems logged with file:line.
+  let daemon: Daemon | null = null;
+  let hupDuringStart = false;
+  const onHup = () => {
+    if (!daemon) {
+      hupDuringStart = true;
+      return;
+    }
+    let next: ReturnType<typeof configWithHash>;
+    try {
+      next = configWithHash(values.config);
+    } catch (e) {
+      log.error(`reload refused, the running config stays:\n${(e as Error).message}`);
+      return;
+    }
+    daemon.reload(next.cfg, next.configFile).catch((e: Error) => log.error(`reload failed part way (${e.message}): restart the service to start clean`));
+  };
+  // Before the start: SIGHUP's default action would end the process.
+  process.on("SIGHUP", onHup);
+  const running = (daemon = await Daemon.start({ config: cfg, log, configFile }));
+  if (hupDuringStart) onHup();
+  const pidFile = values["pid-file"] ? resolve(values["pid-file"]) : null;
+  if (pidFile) writeFileSync(pidFile, `${process.pid}\n`);
   const sig = await waitForSignal();
-  log.info(`${sig}: stopping`);
-  await daemon.stop();
+  log.info(`${sig}: stopping (flushing the historian, closing sources and sessions; a second SIGTERM or SIGINT forces the exit)`);
+  const force = (s: string) => {
+    log.error(`${s} again: exit without a clean stop (the historian keeps what was committed)`);
+    process.exit(1);
+  };
+  process.once("SIGINT", force);
+  process.once("SIGTERM", force);
+  // Not the default action (which ends the process) while stopping: ignored, with a word.
+  process.off("SIGHUP", onHup);
+  process.on("SIGHUP", () => log.warn("SIGHUP while stopping: no reload"));
+  await running.stop();
+  if (pidFile) rmSync(pidFile, { force: true });
+  log.info("stopped");
   return 0;
 }
 
@@ -360,8 +402,14 @@ export async function main(argv: string[]): Promise<number> {
         return await cmdExport(rest);
       case "replay":
         return await replayCommand(rest);
+      case "fleet":
+        return await fleetCommand(rest, waitForSignal());
       case "user":
         return await userCommand(rest);
+      case "reload":
+        return await reloadCommand(rest);
+      case "backup":
+        return await backupCommand(rest);
       case undefined:
       case "help":
       case "--help":
@@ -380,7 +428,7 @@ export async function main(argv: string[]): Promise<number> {
       process.stderr.write(`config errors:\n${e.message}\n`);
       return 1;
     }
-    if (e instanceof UsageError || (e as NodeJS.ErrnoException).code === "ERR_PARSE_ARGS_UNKNOWN_OPTION") {
+    if (e instanceof UsageError || e instanceof FleetUsageError || (e as NodeJS.ErrnoException).code === "ERR_PARSE_ARGS_UNKNOWN_OPTION") {
       process.stderr.write(`${(e as Error).message}\n\n${USAGE}\n`);
       return 2;
     }

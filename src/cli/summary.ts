@@ -15,6 +15,9 @@ export function summarizeConfig(cfg: MillwardenConfig, file: string): string {
     else lines.push(`source ${s.id}: opcua ${s.endpointUrl} (security ${s.securityMode}${s.securityMode === "None" ? ": NOT SECURED" : `, ${s.securityPolicy}`}), ${n} signals`);
   }
   lines.push(`signals: ${cfg.signals.length}`);
+  const rp = cfg.republish;
+  if (rp) lines.push(`republish: ${rp.url} under ${rp.prefix}/${rp.box}/ (QoS ${rp.qos}${rp.sparkplug ? `; Sparkplug B node ${rp.sparkplug.group}/${rp.sparkplug.node}` : ""}); publishing only, never to the control system`);
+  if (cfg.opcuaServer) lines.push(`OPC UA server (read only): opc.tcp://${cfg.opcuaServer.host}:${cfg.opcuaServer.port} (${cfg.opcuaServer.securityModes.join(", ")})`);
   for (const u of cfg.units) {
     const o = u.oxygen;
     if (!o) {

@@ -16,11 +16,17 @@ import { Historian } from "../store/historian.js";
 
 export class UserCommandError extends Error {}
 
+/** A PIN: short enough to type on a phone at night; the per-link and per-user lockout limits guessing. */
+export const PIN_PATTERN = /^[0-9]{6,12}$/;
+export const PIN_RULE = "6 to 12 digits";
+
 const USAGE = `millwarden user add NAME --role viewer|operator|engineer|admin --config FILE
 millwarden user list --config FILE
 millwarden user passwd NAME --config FILE
 millwarden user remove NAME --config FILE
-  The password is asked for on the terminal (not shown), or read from the first line of stdin.`;
+millwarden user pin NAME [--clear] --config FILE
+  The password (or PIN) is asked for on the terminal (not shown), or read from the first line of stdin.
+  A PIN (${PIN_RULE}) is accepted only with an acknowledge link from a notification.`;
 
 interface Io {
   stdin: NodeJS.ReadStream;
@@ -89,6 +95,20 @@ async function readNewPassword(io: Io, name: string): Promise<string> {
   return password;
 }
 
+/** A new PIN: twice on a terminal, once from stdin. */
+async function readNewPin(io: Io, name: string): Promise<string> {
+  let pin: string;
+  if (io.stdin.isTTY) {
+    pin = await promptHidden(io, `new PIN for ${name} (${PIN_RULE}): `);
+    const again = await promptHidden(io, "the same again: ");
+    if (again !== pin) throw new UserCommandError("the two PINs differ; nothing was changed");
+  } else {
+    pin = await readStdinLine(io.stdin);
+  }
+  if (!PIN_PATTERN.test(pin)) throw new UserCommandError(`PIN: expected ${PIN_RULE}, found ${pin.length} characters${/^[0-9]*$/.test(pin) ? "" : " that are not all digits"}; nothing was changed`);
+  return pin;
+}
+
 function openHistorian(configPath: string | undefined): Historian {
   if (!configPath) throw new UserCommandError("--config FILE is required (the accounts live in its storage.path)");
   const cfg = loadConfig(configPath);
@@ -101,7 +121,7 @@ function audit(h: Historian, io: Io, e: Omit<AuditInput, "atMs" | "actor" | "sou
 }
 
 export async function userCommand(args: string[], io: Io = process): Promise<number> {
-  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { config: { type: "string" }, role: { type: "string" } } });
+  const { values, positionals } = parseArgs({ args, allowPositionals: true, options: { config: { type: "string" }, role: { type: "string" }, clear: { type: "boolean" } } });
   const [verb, name, ...extra] = positionals;
   if (extra.length > 0) throw new UserCommandError(`user ${verb ?? ""}: expected one NAME, found ${positionals.length - 1} (the password is never given on the command line)\n\n${USAGE}`);
   const needName = (): string => {
@@ -181,8 +201,29 @@ export async function userCommand(args: string[], io: Io = process): Promise<num
         }
         return 0;
       }
+      case "pin": {
+        const n = needName();
+        const h = openHistorian(values.config);
+        try {
+          const existing = h.accounts().findUser(n);
+          if (existing === null) throw new AccountError(`user "${n}": no such account (see "millwarden user list")`);
+          if (values.clear) {
+            const had = h.accounts().clearPin(existing.name);
+            audit(h, io, { action: "user.pin-clear", target: existing.name, detail: { had } });
+            io.stdout.write(had ? `removed the PIN of ${existing.name}\n` : `${existing.name} had no PIN\n`);
+            return 0;
+          }
+          const hash = await hashPassword(await readNewPin(io, existing.name));
+          h.accounts().setPinHash(existing.name, hash, Date.now());
+          audit(h, io, { action: "user.pin", target: existing.name, detail: { role: existing.role } });
+          io.stdout.write(`set the PIN of ${existing.name} (for acknowledge links in notifications)\n`);
+        } finally {
+          h.close();
+        }
+        return 0;
+      }
       default:
-        throw new UserCommandError(`user: expected add, list, passwd or remove, found ${verb === undefined ? "nothing" : `"${verb}"`}\n\n${USAGE}`);
+        throw new UserCommandError(`user: expected add, list, passwd, remove or pin, found ${verb === undefined ? "nothing" : `"${verb}"`}\n\n${USAGE}`);
     }
   } catch (err) {
     if (err instanceof AccountError) throw new UserCommandError(err.message);

@@ -12,6 +12,7 @@ import { checkCo } from "./sections/co.js";
 import { checkPhase } from "./sections/phase.js";
 import { checkNotifications } from "./sections/notifications.js";
 import { checkAnalysers } from "./sections/analysers.js";
+import { checkRepublish } from "./sections/republish.js";
 
 export interface ConfigProblem {
   file: string;
@@ -171,6 +172,7 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
   checkPhase(cfg, ctx);
   checkAnalysers(cfg, ctx);
   checkNotifications(cfg, ctx);
+  checkRepublish(cfg, ctx);
 
   const quantities = new Set([...signals.keys(), ...derivedQuantities(cfg).map((q) => q.key)]);
   const states = new Map(stateKeys(cfg).map((k) => [k.key, k]));

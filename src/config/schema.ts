@@ -12,6 +12,7 @@ import { oxygenSchema } from "./sections/oxygen.js";
 import { phaseSchema } from "./sections/phase.js";
 import { analysersSection } from "./sections/analysers.js";
 import { notificationsSchema } from "./sections/notifications.js";
+import { opcuaServerSchema, republishSchema } from "./sections/republish.js";
 
 /** An MQTT topic filter: + stands for one whole level, # for the whole rest (last level only). */
 const topicFilter = z
@@ -323,6 +324,10 @@ export const configSchema = z.strictObject({
   rules: z.array(rule).default([]),
   /** Reaching the on-call engineer (src/config/sections/notifications.ts); none when absent. */
   notifications: notificationsSchema.optional(),
+  /** Publishing derived values, states and advisories to the site's messaging broker (src/config/sections/republish.ts); none when absent. */
+  republish: republishSchema.optional(),
+  /** Derived values, states and advisory states served read only over OPC UA (no writes, no methods); none when absent. */
+  opcuaServer: opcuaServerSchema.optional(),
 });
 
 export type MillwardenConfig = z.infer<typeof configSchema>;

@@ -12,19 +12,25 @@ import { fileURLToPath } from "node:url";
 import { dirname, resolve } from "node:path";
 import type { MillwardenConfig } from "../config/schema.js";
 import { DataClock, Engine } from "../core/engine.js";
-import type { AdvisoryTransition, Command, CoreEvent, Sample } from "../core/types.js";
+import type { AdvisoryTransition, AdvisoryView, Command, CoreEvent, Sample } from "../core/types.js";
 import { ADVISORY_ONLY } from "../core/types.js";
 import type { AuditInput } from "../store/accounts.js";
 import { Historian } from "../store/historian.js";
 import { historianInput } from "../replay/input.js";
+import { ruleViews } from "../server/rules.js";
+import { handoverFromHistorian } from "./handover-deps.js";
 import { daemonMetrics } from "./metrics.js";
 import type { Registry } from "prom-client";
 import { MqttSource, type Source } from "../sources/mqtt.js";
 import { ChangeFeed } from "./change-feed.js";
-import { UnknownSeriesError, type AppDeps, type HealthView } from "../server/deps.js";
+import { UnknownSeriesError, type AppDeps, type HealthView, type NotifyPort } from "../server/deps.js";
 import { startServer } from "../server/listen.js";
 import type { Logger } from "./log.js";
 import { NotifyService } from "../notify/service.js";
+import { Republisher } from "../republish/republisher.js";
+import { sparkplugMetrics } from "../republish/sparkplug-node.js";
+import type { AdvisoryOpcUaServer } from "../republish/opcua-server.js";
+import { derivedQuantities, stateKeys } from "../core/quantities.js";
 
 /** The history a warm start needs: the longest window the config uses, at least an hour. */
 export function warmStartSpanS(cfg: MillwardenConfig): number {
@@ -62,6 +68,10 @@ export class Daemon {
   readonly feed: ChangeFeed;
   /** Notifications (outbox → channels), when the config has a notifications: section. */
   readonly notify: NotifyService | null;
+  /** Publishing to the site's messaging broker, when the config has a republish: section. */
+  readonly republish: Republisher | null;
+  /** The read-only OPC UA server of derived values and advisory states, when the config has an opcuaServer: section. */
+  opcuaServer: AdvisoryOpcUaServer | null = null;
   private readonly metrics: Registry;
   sources: Source[] = [];
   url: string | null = null;
@@ -76,8 +86,13 @@ export class Daemon {
   private lastMaintainMs: number | null = null;
   private maintainTimer: NodeJS.Timeout | null = null;
   private readonly rejectedByCore: Record<string, number> = {};
+  /** The series the trend route knows; rebuilt after a reload. */
+  private series: Set<string> | null = null;
+  /** A reload in progress: the next one waits for it. */
+  private reloading: Promise<unknown> = Promise.resolve();
 
-  private constructor(private readonly opts: DaemonOptions) {
+  /** `opts.config` is replaced by a reload (see reload()); everything else stays as started. */
+  private constructor(private opts: DaemonOptions) {
     const cfg = opts.config;
     this.now = opts.now ?? Date.now;
     this.startedAtMs = this.now();
@@ -96,22 +111,32 @@ export class Daemon {
     this.notify = cfg.notifications
       ? NotifyService.create({ config: cfg, historianPath: this.historian.path, baseDir: opts.baseDir, log: opts.log, now: this.now, advisories: () => this.engine.currentAdvisories() })
       : null;
-    const positions = [...new Set(cfg.rules.map((r) => r.position))].sort();
+    this.republish = cfg.republish
+      ? new Republisher({
+          config: cfg.republish,
+          info: { site: cfg.site.name, plant: cfg.site.plant, units: cfg.units.map((u) => ({ id: u.id, name: u.name, kind: u.kind })) },
+          historianPath: this.historian.path,
+          baseDir: opts.baseDir,
+          log: (level, msg) => opts.log[level](msg),
+          now: this.now,
+          advisories: () => this.engine.currentAdvisories(),
+          sparkplugMetrics: sparkplugMetrics(derivedQuantities(cfg).map((q) => q.key), stateKeys(cfg).map((k) => k.key), cfg.rules.map((r) => r.id)),
+        })
+      : null;
     this.metrics = daemonMetrics({
       sources: () => this.sources.map((s) => s.stats()),
       rejectedByCore: () => this.rejectedByCore,
       ...(cfg.clock === "data" ? {} : { coreLagS: () => (this.now() - this.lastTickMs) / 1000 }),
       historian: () => this.historian.stats(),
       advisories: () => this.engine.currentAdvisories(),
-      positions: () => positions,
+      positions: () => [...new Set(this.opts.config.rules.map((r) => r.position))].sort(),
       inFlood: (p) => this.engine.inFlood(p),
     });
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
   }
 
   /** Build the sources; node-opcua is loaded only when an OPC UA source is configured (it is large). */
-  private async makeSources(): Promise<Source[]> {
-    const cfg = this.opts.config;
+  private async makeSources(cfg: MillwardenConfig = this.opts.config): Promise<Source[]> {
     const deps = { now: this.now, log: (level: "info" | "warn" | "error", msg: string) => this.opts.log[level](msg), baseDir: this.opts.baseDir };
     const opcua = cfg.sources.some((s) => s.kind === "opcua") ? await import("../sources/opcua.js") : null;
     return cfg.sources.map((s) => {
@@ -136,6 +161,20 @@ export class Daemon {
     this.historian.start();
     this.feed.start();
     this.notify?.start();
+    this.republish?.start();
+    if (cfg.opcuaServer) {
+      // node-opcua is loaded only when configured (it is large).
+      const { startAdvisoryOpcUaServer } = await import("../republish/opcua-server.js");
+      this.opcuaServer = await startAdvisoryOpcUaServer({
+        config: cfg.opcuaServer,
+        baseDir: this.opts.baseDir,
+        derivedKeys: derivedQuantities(cfg).map((q) => q.key),
+        stateKeys: stateKeys(cfg).map((k) => k.key),
+        ruleIds: cfg.rules.map((r) => r.id),
+        site: `${cfg.site.name}, ${cfg.site.plant}`,
+        log: (m) => log.info(m),
+      });
+    }
     if (!this.dataClock) {
       this.tick(this.now());
       this.timer = setInterval(() => this.tick(this.now()), 1000);
@@ -298,6 +337,11 @@ export class Daemon {
     }
     this.feed.changed(transitions);
     this.notify?.record(events, this.lastTickMs);
+    this.republish?.record(events);
+    if (this.opcuaServer) {
+      let views: Map<string, AdvisoryView> | null = null;
+      this.opcuaServer.record(events, (id) => (views ??= new Map(this.engine.currentAdvisories().map((v) => [v.id, v]))).get(id));
+    }
   }
 
   health(): HealthView {
@@ -318,8 +362,23 @@ export class Daemon {
     };
   }
 
+  /** Acknowledge links, the delivery log and Web Push sign-up for the HTTP side. */
+  private notifyPort(n: NotifyService): NotifyPort {
+    return {
+      inspectAckLink: (token) => n.inspectAckLink(token),
+      useAckLink: (token, by) => n.useAckLink(token, by),
+      // The notifier runs on the core's time, like the command that acknowledged on the board.
+      acknowledged: (advisoryId, by) => n.acknowledge({ advisoryId, by, atMs: this.dataClock ? this.lastTickMs : this.now() }),
+      pinHash: (user) => this.historian.accounts().findPinHash(user),
+      deliveries: (limit) => n.deliveries(limit),
+      vapidPublicKey: () => n.vapidPublicKey,
+      personOf: (user) => n.personOf(user),
+      subscribe: (personId, sub) => n.subscribe(personId, sub),
+      unsubscribe: (personId, endpoint) => n.unsubscribe(personId, endpoint),
+    };
+  }
+
   appDeps(): AppDeps {
-    const series = new Set(this.engine.seriesNames());
     return {
       getState: () => this.engine.snapshot(),
       health: () => this.health(),
@@ -346,7 +405,7 @@ export class Daemon {
         return { ok: true, advisory: r.advisory };
       },
       trend: (name, fromMs, toMs, points) => {
-        if (!series.has(name)) throw new UnknownSeriesError(name);
+        if (!(this.series ??= new Set(this.engine.seriesNames())).has(name)) throw new UnknownSeriesError(name);
         this.historian.flush();
         return this.historian.trend(name, fromMs, toMs, points).points;
       },
@@ -357,11 +416,72 @@ export class Daemon {
         auditLog: (limit) => this.historian.accounts().auditLog(limit),
         appendAudit: (e) => this.audit(e),
       },
+      ...(this.notify ? { notify: this.notifyPort(this.notify) } : {}),
       metrics: async () => ({ contentType: this.metrics.contentType, body: await this.metrics.metrics() }),
+      // From the config in force (a reload replaces it).
+      rules: () => ruleViews(this.opts.config),
+      handover: (hours) => handoverFromHistorian(this.historian, this.engine.snapshot(), this.opts.config, hours),
     };
   }
 
+  /**
+   * Swap in a new config while running (SIGHUP, `millwarden reload`). `next` has been parsed and
+   * cross-checked by the caller; a new Engine is built from it here before anything changes, so a
+   * config the core refuses leaves the running one in place. Then, like a restart without losing
+   * the process: sources whose settings or signals changed are stopped and made anew (the others
+   * keep their connections), the core is replaced by a fresh engine warm-started from the
+   * historian (windows and baselines refilled), and the advisory states are restored (a rule that
+   * changed is judged afresh, as after a restart). `server`, `storage`, `clock`, `notifications`,
+   * `republish` and `opcuaServer` are read at start only: a change there is applied at the next
+   * restart (logged).
+   */
+  reload(next: MillwardenConfig, configFile?: { path: string; sha256: string }): Promise<{ ok: true; restartedSources: string[]; keptUntilRestart: string[] } | { ok: false; error: string }> {
+    const run = this.reloading.then(() => this.reloadNow(next, configFile));
+    this.reloading = run.catch(() => undefined);
+    return run;
+  }
+
+  private async reloadNow(next: MillwardenConfig, configFile?: { path: string; sha256: string }): Promise<{ ok: true; restartedSources: string[]; keptUntilRestart: string[] } | { ok: false; error: string }> {
+    const { log } = this.opts;
+    const prev = this.opts.config;
+    const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+    // Built once at start (the HTTP server, the historian, the clock, the notifier, the republishers).
+    const keptUntilRestart = (["server", "storage", "clock", "notifications", "republish", "opcuaServer"] as const).filter((k) => !same(prev[k], next[k]));
+    const sourceKey = (cfg: MillwardenConfig, id: string) => ({ source: cfg.sources.find((s) => s.id === id), signals: cfg.signals.filter((s) => s.source === id) });
+    const changed = next.sources.filter((s) => !same(sourceKey(prev, s.id), sourceKey(next, s.id))).map((s) => s.id);
+    let engine: Engine;
+    let fresh: Source[];
+    try {
+      engine = new Engine(next);
+      fresh = await this.makeSources({ ...next, sources: next.sources.filter((s) => changed.includes(s.id)) });
+    } catch (e) {
+      const error = `the core refused the new config: ${(e as Error).message}`;
+      log.error(`reload refused, the running config stays: ${error}`);
+      return { ok: false, error };
+    }
+    const nextIds = new Set(next.sources.map((s) => s.id));
+    const leaving = this.sources.filter((s) => changed.includes(s.id) || !nextIds.has(s.id));
+    for (const s of leaving) await s.stop().catch((e: Error) => log.warn(`source ${s.id} did not stop cleanly: ${e.message}`));
+    // From here on synchronous: no sample or tick lands between the old engine and the new one.
+    // The advisory states are already stored (record() saves them at every transition); the
+    // queued samples are written now so that the warm start sees them.
+    this.historian.flush();
+    this.opts = { ...this.opts, config: { ...next, ...Object.fromEntries(keptUntilRestart.map((k) => [k, prev[k]])) }, ...(configFile ? { configFile } : {}) };
+    this.engine = engine;
+    this.series = null;
+    this.warmStart();
+    this.restoreAdvisories();
+    this.sources = [...this.sources.filter((s) => !leaving.includes(s)), ...fresh];
+    this.auditConfigLoaded();
+    for (const s of fresh) await s.start((sample) => this.ingest(sample));
+    if (keptUntilRestart.length) log.warn(`reload: ${keptUntilRestart.join(", ")} changed; read at start only, applied at the next restart`);
+    log.info(`reload: config applied: ${next.signals.length} signals, ${next.rules.length} rules (${next.rules.map((r) => r.id).join(", ")}); sources restarted: ${changed.length ? changed.join(", ") : "none"}`);
+    return { ok: true, restartedSources: changed, keptUntilRestart };
+  }
+
   async stop(): Promise<void> {
+    // A reload under way finishes first, so that it cannot start sources after the stop.
+    await this.reloading;
     if (this.timer) clearInterval(this.timer);
     if (this.maintainTimer) clearInterval(this.maintainTimer);
     this.timer = this.maintainTimer = null;
@@ -370,6 +490,10 @@ export class Daemon {
     if (this.server) await this.server.close();
     this.server = null;
     await this.notify?.stop();
+    await this.republish?.stop();
+    await this.opcuaServer?.close();
+    this.opcuaServer = null;
+    // The advisory states are saved at every transition (record()); close() flushes the queued rows.
     this.historian.close();
   }
 }

@@ -6,8 +6,9 @@
 // unit, the indicator, its value, the limit, the trend, the time in UTC and in site time, and a
 // link to the dashboard.
 //
-// The link: `${linkBase}/#advisory=<id>`. Acknowledging from the phone will add a signed,
-// single-use, expiring token bound to the outbox entry (its `ref`) as `&ack=<token>`; the
+// The link: `${linkBase}/#advisory=<id>`. At delivery the service adds the acknowledge link
+// (`${linkBase}/ack.html#t=<token>`: signed, single use, expiring, bound to the outbox entry;
+// src/notify/ack-link.ts) to the fields and as an "Acknowledge:" line under "Open:"; the
 // fragment keeps the token out of server logs and the Referer header.
 import { ADVISORY_ONLY, type Tier } from "../core/types.js";
 import { formatLocal, formatUtc } from "./zone.js";
@@ -48,6 +49,8 @@ export interface MessageFields {
   atLocal: string;
   timeZone: string;
   link: string;
+  /** The signed acknowledge link, added at delivery (src/notify/ack-link.ts); never stored. */
+  ackLink?: string;
 }
 
 export interface Message {

@@ -18,9 +18,10 @@ import type { MillwardenConfig } from "../config/schema.js";
 import { checkNotifications, type NotificationChannelConfig, type NotificationsConfig } from "../config/sections/notifications.js";
 import type { AdvisoryView, CoreEvent } from "../core/types.js";
 import type { Logger } from "../daemon/log.js";
-import type { ChannelStats, OutboxEntry, OutboxItem } from "../store/outbox.js";
+import type { ChannelStats, DeliveryLogRow, OutboxEntry, OutboxItem } from "../store/outbox.js";
 import { Outbox } from "../store/outbox.js";
-import type { NotificationsHealth } from "../server/deps.js";
+import type { AckLinkLookup, NotificationsHealth } from "../server/deps.js";
+import { ACK_LINK_TTL_MS, AckLinkSigner, ackLinkUrl, loadOrCreateAckLinkKey } from "./ack-link.js";
 import type { DeliveryPolicy } from "./backoff.js";
 import { advisoryCatalogue } from "./catalogue.js";
 import { EmailChannel, type MailTransport } from "./channels/email.js";
@@ -37,6 +38,8 @@ const DELIVER_EVERY_MS = 1000;
 const DUE_BATCH = 100;
 const STATS_CACHE_MS = 5000;
 const PRUNE_EVERY_MS = 3600_000;
+/** A daily test missed, with two hours of slack for retries: the channel is silent. */
+export const SILENT_AFTER_MS = 26 * 3600_000;
 
 export interface NotifyServiceOptions {
   config: MillwardenConfig;
@@ -55,7 +58,12 @@ export interface NotifyServiceOptions {
   /** Tests: an HTTPS agent for Web Push, an SMTP transport. */
   webPushAgent?: Agent;
   mailTransport?: MailTransport;
+  /** How long an acknowledge link works (default ACK_LINK_TTL_MS). */
+  ackLinkTtlMs?: number;
 }
+
+/** Messages a person can acknowledge the advisory from. */
+const ACKNOWLEDGEABLE = new Set(["advisory", "escalation", "reminder"]);
 
 /** A channel that could not be built (a missing environment variable): every attempt fails with why. */
 class BrokenChannel implements Channel {
@@ -97,6 +105,10 @@ export class NotifyService {
   private stats: { atMs: number; list: ChannelStats[] } | null = null;
   private lastPruneMs = Number.NEGATIVE_INFINITY;
   private commitError: string | null = null;
+  private readonly signer: AckLinkSigner;
+  private readonly linkBase: string;
+  private readonly ackLinkTtlMs: number;
+  private readonly startedAtMs: number;
 
   private constructor(private readonly o: NotifyServiceOptions) {
     const cfg = o.config.notifications!;
@@ -107,6 +119,9 @@ export class NotifyService {
     const advisories = advisoryCatalogue(o.config);
     for (const a of advisories) if (a.trend) this.trendKeys.set(a.trend.key, [...(this.trendKeys.get(a.trend.key) ?? []), a.id]);
     const linkBase = cfg.linkBase ?? `http://${o.config.server.host}:${o.config.server.port}`;
+    this.linkBase = linkBase;
+    this.startedAtMs = o.now();
+    this.ackLinkTtlMs = o.ackLinkTtlMs ?? ACK_LINK_TTL_MS;
     this.notifier = new Notifier({ config: cfg, site: o.config.site.name, plant: o.config.site.plant, linkBase, advisories });
     this.outbox = Outbox.openBeside(o.historianPath);
     const saved = this.outbox.loadState();
@@ -117,6 +132,11 @@ export class NotifyService {
         o.log.warn(`notifications: the stored notifier state could not be read (${(err as Error).message}); escalations under way before the restart are not continued`);
       }
     }
+    const dataDir = o.historianPath === ":memory:" ? resolve(o.baseDir ?? process.cwd(), "data") : dirname(o.historianPath);
+    const keyFile = resolve(dataDir, "ack-link.key");
+    const ak = loadOrCreateAckLinkKey(keyFile);
+    if (ak.created) o.log.info(`notifications: made the key that signs acknowledge links in ${keyFile} (keep it private; a new key voids the links sent before)`);
+    this.signer = new AckLinkSigner(ak.key);
     const env = o.env ?? process.env;
     let vapid: VapidKeys | null = null;
     for (const c of cfg.channels) {
@@ -307,7 +327,7 @@ export class NotifyService {
       const t0 = this.o.now();
       let result: SendResult;
       try {
-        result = await ch.send(toDelivery(e));
+        result = await ch.send(this.toDelivery(e));
       } catch (err) {
         // An adapter should not throw; if one does, it is worth another try.
         result = { ok: false, retry: true, error: (err as Error).message };
@@ -342,6 +362,74 @@ export class NotifyService {
     this.o.log.warn(`notifications: channel "${id}": ${text}`);
   }
 
+  // ---- acknowledge links ----
+
+  private toDelivery(e: OutboxEntry): Delivery {
+    return toDelivery(e, this.ackLinkOf(e));
+  }
+
+  /** The acknowledge link of an entry, or null when its message is not about an advisory one can acknowledge. */
+  ackLinkOf(e: OutboxEntry): string | null {
+    if (e.advisoryId === null || !ACKNOWLEDGEABLE.has(e.kind)) return null;
+    return ackLinkUrl(this.linkBase, this.signer.sign(e.id, e.advisoryId, e.recipientKey, e.createdAtMs + this.ackLinkTtlMs));
+  }
+
+  /** What a link's token stands for: 404 not ours (or tampered), 410 expired, 409 used. No side effect. */
+  inspectAckLink(token: string): AckLinkLookup {
+    const c = AckLinkSigner.parse(token);
+    const bad: AckLinkLookup = { ok: false, status: 404, error: "acknowledge link: not one this box made (check that the whole link was opened; a link cut short by a mail program does not work)" };
+    if (c === null) return bad;
+    const e = this.outbox.get(c.outboxId);
+    if (e === null || e.advisoryId === null || !ACKNOWLEDGEABLE.has(e.kind) || !this.signer.verify(token, e.advisoryId, e.recipientKey)) return bad;
+    // The signature covers the expiry, so the one in the token is the one that was sent.
+    if (this.o.now() >= c.expiresAtMs) {
+      return { ok: false, status: 410, error: `acknowledge link: expired at ${new Date(c.expiresAtMs).toISOString()}; acknowledge the advisory on the dashboard` };
+    }
+    const used = this.outbox.ackLinkUse(e.id);
+    if (used !== null) return usedAnswer(used);
+    const kind = this.channelConfigs.find((x) => x.id === e.channel)?.kind ?? "unknown";
+    return {
+      ok: true,
+      outboxId: e.id,
+      advisoryId: e.advisoryId,
+      channel: e.channel,
+      channelKind: kind,
+      personId: e.recipient.kind === "person" ? e.recipient.id : null,
+      expiresAtMs: c.expiresAtMs,
+      subject: e.subject,
+    };
+  }
+
+  /** Checks the link again and marks it used, in one statement: of two at once, one wins and the other gets 409. */
+  useAckLink(token: string, by: string): AckLinkLookup {
+    const r = this.inspectAckLink(token);
+    if (!r.ok) return r;
+    const before = this.outbox.useAckLink(r.outboxId, r.advisoryId, r.channel, by, this.o.now());
+    return before === null ? r : usedAnswer(before);
+  }
+
+  // ---- Web Push sign-up, the delivery log ----
+
+  /** An account stands for the person of notifications.people whose id is its name (compared without case). */
+  personOf(user: string): string | null {
+    const u = user.toLowerCase();
+    return this.cfg.people.find((p) => p.id.toLowerCase() === u)?.id ?? null;
+  }
+
+  subscribe(personId: string, sub: { endpoint: string; p256dh: string; auth: string }): void {
+    this.outbox.addSubscription({ endpoint: sub.endpoint, personId, p256dh: sub.p256dh, auth: sub.auth, createdAtMs: this.o.now() });
+  }
+
+  /** Only the person's own subscription: nobody removes another person's browser. */
+  unsubscribe(personId: string, endpoint: string): boolean {
+    const s = this.outbox.subscription(endpoint);
+    return s !== null && s.personId === personId && this.outbox.removeSubscription(endpoint);
+  }
+
+  deliveries(limit: number): DeliveryLogRow[] {
+    return this.outbox.recentDeliveries(limit);
+  }
+
   // ---- health, stop ----
 
   health(): NotificationsHealth {
@@ -369,6 +457,9 @@ export class NotifyService {
         lastError: failing ? (s?.lastError ?? (broken ? (ch as BrokenChannel).why : null)) : null,
         pending: (s?.pending ?? 0) + (s?.failed ?? 0),
         dead: s?.dead ?? 0,
+        // The daily test is the proof of life: without one, a quiet channel is just quiet.
+        failingSinceMs: failing ? (s?.failingSinceMs ?? null) : null,
+        silent: c.dailyTest !== undefined && nowMs - (lastSuccessMs ?? this.startedAtMs) > SILENT_AFTER_MS,
       };
     });
     return {
@@ -390,6 +481,15 @@ export class NotifyService {
   }
 }
 
-function toDelivery(e: OutboxEntry): Delivery {
-  return { id: e.id, dedupKey: e.dedupKey, channel: e.channel, recipient: e.recipient, address: e.address, subject: e.subject, text: e.text, fields: e.fields };
+function toDelivery(e: OutboxEntry, ackLink: string | null): Delivery {
+  if (ackLink === null) return { id: e.id, dedupKey: e.dedupKey, channel: e.channel, recipient: e.recipient, address: e.address, subject: e.subject, text: e.text, fields: e.fields };
+  // The token is added here, at each attempt, and never stored: the outbox row, its log and the
+  // daemon's log never hold it.
+  const open = `Open: ${e.fields.link}`;
+  const text = e.text.includes(open) ? e.text.replace(open, `${open}\nAcknowledge: ${ackLink}`) : `${e.text}\nAcknowledge: ${ackLink}\n`;
+  return { id: e.id, dedupKey: e.dedupKey, channel: e.channel, recipient: e.recipient, address: e.address, subject: e.subject, text, fields: { ...e.fields, ackLink } };
+}
+
+function usedAnswer(u: { usedBy: string; usedAtMs: number }): AckLinkLookup {
+  return { ok: false, status: 409, error: `acknowledge link: used already, by ${u.usedBy} at ${new Date(u.usedAtMs).toISOString()}; each link works once` };
 }

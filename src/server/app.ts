@@ -13,6 +13,10 @@
 //        the daemon's 400 BAD_COMMAND / 403 FORBIDDEN / 404 ADVISORY_NOT_FOUND / 409 ADVISORY_CONFLICT
 //        pass through; another name is 404 UNKNOWN_COMMAND
 //   GET  /api/trend?signal&from&to&points deps.trend()
+//   GET|POST /api/ack-link, GET /api/notifications/deliveries, GET /api/push/key,
+//   POST|DELETE /api/push/subscribe                            (notify-routes.ts)
+//   GET  /api/rules                deps.rules()           the configured rules, every tier's limit
+//   GET  /api/handover?hours=8|12  deps.handover()        the shift handover (src/server/handover.ts)
 //   WS   /api/live                 snapshot, then deps.subscribe() messages (live.ts)
 //   GET  /vendor/uplot/uPlot.esm.js, uPlot.min.css   the trends page's plotting library
 //   GET  /*                        files from deps.dashboardDir
@@ -33,12 +37,14 @@ import { COMMAND_ROLE, registerAuth, type AuthOptions } from "./auth.js";
 import { UnknownSeriesError, type AppDeps } from "./deps.js";
 import { ApiError, describeFound, type ApiErrorBody, type ApiErrorCode } from "./errors.js";
 import { LiveHub, type LiveHubOptions } from "./live.js";
+import { registerNotifyRoutes, type NotifyRouteOptions } from "./notify-routes.js";
 import {
   ADVISORY_COMMANDS,
   parseAdvisoryId,
   parseAdvisoryQuery,
   parseCommandBody,
   parseCommandName,
+  parseHandoverQuery,
   parseTrendQuery,
   rejectUnknown,
 } from "./params.js";
@@ -55,6 +61,8 @@ export interface BuildAppOptions {
    * anyone could then claim any address and walk around the per-address lockout.
    */
   trustProxy?: boolean;
+  /** Acknowledge links: lockout per link and per user (notify-routes.ts). */
+  notify?: NotifyRouteOptions;
 }
 
 /** GET /api/trend answers with compact tuples: [tMs, value, quality]. */
@@ -187,7 +195,7 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
       "NOT_FOUND",
       `${request.method} ${request.url.split("?")[0]}: no such route or file` +
         (request.url.startsWith("/api/")
-          ? `; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/<command> (POST; command: ${ADVISORY_COMMANDS.join(", ")}), /api/trend, /api/live, /api/login (POST), /api/logout (POST), /api/session, /api/audit`
+          ? `; expected one of /api/health, /api/state, /api/advisories, /api/advisories/:id/<command> (POST; command: ${ADVISORY_COMMANDS.join(", ")}), /api/trend, /api/rules, /api/handover, /api/live, /api/login (POST), /api/logout (POST), /api/session, /api/audit, /api/ack-link, /api/notifications/deliveries, /api/push/key, /api/push/subscribe`
           : ""),
     ),
   );
@@ -205,6 +213,7 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
   // After the websocket plugin: its own onRequest hook must have marked an upgrade request
   // before the gate can refuse it, or the refused socket is never closed.
   const auth = registerAuth(app, deps.accounts, opts.auth);
+  registerNotifyRoutes(app, deps, auth, opts.notify);
 
   app.get("/api/health", async (request, reply) => {
     rejectUnknown(request.query as Query, []);
@@ -293,6 +302,19 @@ export async function buildApp(deps: AppDeps, opts: BuildAppOptions = {}): Promi
       if (err instanceof UnknownSeriesError) throw new ApiError("UNKNOWN_SERIES", err.message);
       throw err;
     }
+  });
+
+  // Read-only, with the login rule of the other views (auth.ts VIEW_PATHS).
+  app.get("/api/rules", async (request, reply) => {
+    rejectUnknown(request.query as Query, []);
+    if (!deps.rules) return sendError(reply, 404, "NOT_FOUND", "no rules in this build: expected GET /api/rules from the daemon");
+    return { rules: deps.rules() };
+  });
+
+  app.get("/api/handover", async (request, reply) => {
+    const { hours } = parseHandoverQuery(request.query as Query);
+    if (!deps.handover) return sendError(reply, 404, "NOT_FOUND", "no handover in this build: expected GET /api/handover from the daemon");
+    return deps.handover(hours);
   });
 
   app.route({

@@ -51,7 +51,7 @@ export function hasRole(role: AccountRole, needed: AccountRole): boolean {
 }
 
 /** The read-only routes that need a login when server.requireLoginForViews is set. */
-const VIEW_PATHS = new Set(["/api/state", "/api/advisories", "/api/trend", "/api/health", "/api/live"]);
+const VIEW_PATHS = new Set(["/api/state", "/api/advisories", "/api/trend", "/api/health", "/api/live", "/api/rules", "/api/handover"]);
 
 export interface LockoutPolicy {
   /** Failed logins for one account name within windowMs that lock it. */
@@ -307,8 +307,9 @@ export function registerAuth(app: FastifyInstance, accounts: AccountsPort, opts:
       if (requireLoginForViews && VIEW_PATHS.has(path)) requireSession(request);
       return;
     }
-    // Everything else may change state: a session and its CSRF token, except to log in.
-    if (request.method === "POST" && path === "/api/login") return;
+    // Everything else may change state: a session and its CSRF token, except to log in and to
+    // acknowledge with a link (the link's token binds that form; notify-routes.ts).
+    if (request.method === "POST" && (path === "/api/login" || path === "/api/ack-link")) return;
     const s = requireSession(request);
     const header = request.headers[CSRF_HEADER];
     const sent = Array.isArray(header) ? undefined : header;

@@ -3,6 +3,9 @@
 // implementation and the daemon hands it the live one.
 import type { AdvisoryTransition, AdvisoryView, CommandKind, LiveMessage, PlantState, Quality } from "../core/types.js";
 import type { AccountRole, AccountStore } from "../store/accounts.js";
+import type { Handover } from "./handover.js";
+import type { RuleView } from "./rules.js";
+import type { DeliveryLogRow } from "../store/outbox.js";
 
 export interface TrendPoint {
   tMs: number;
@@ -40,6 +43,13 @@ export interface NotificationsHealth {
     pending: number;
     /** Entries given up on. */
     dead: number;
+    /**
+     * A channel with a daily test whose last success (test or other message) is more than
+     * SILENT_AFTER_MS ago, or that has had none that long since the start: nobody knows it works.
+     */
+    silent?: boolean;
+    /** failing: since when (the first failure after the last success). */
+    failingSinceMs?: number | null;
   }[];
   /** Advisories whose on-call chain is running (escalation, reminders). */
   escalating: number;
@@ -74,6 +84,49 @@ export interface AdvisoryCommandBody extends AdvisoryCommandFields {
 /** The accounts and the audit log (src/store/accounts.ts): what the login and the records need. */
 export type AccountsPort = Pick<AccountStore, "findUser" | "appendAudit" | "auditLog">;
 
+/** What an acknowledge link stands for, or why it does not work (src/notify/ack-link.ts). */
+export type AckLinkLookup =
+  | {
+      ok: true;
+      outboxId: number;
+      advisoryId: string;
+      /** The channel the link was sent on, and its kind (email, webhook, mqtt, webpush). */
+      channel: string;
+      channelKind: string;
+      /** The roster person it was sent to (null: a channel-wide message). */
+      personId: string | null;
+      expiresAtMs: number;
+      subject: string;
+    }
+  | { ok: false; status: 404 | 409 | 410; error: string };
+
+/** A browser's Web Push subscription as the Push API's PushSubscription.toJSON() gives it. */
+export interface PushSubscriptionInput {
+  endpoint: string;
+  p256dh: string;
+  auth: string;
+}
+
+/** Notifications as the HTTP side sees them (src/notify/service.ts; absent without a notifications: section). */
+export interface NotifyPort {
+  /** The link's entry, checked (signature, expiry, not used); no side effect. */
+  inspectAckLink(token: string): AckLinkLookup;
+  /** Checks the link again and marks it used by `by` (once: a second call answers 409). */
+  useAckLink(token: string, by: string): AckLinkLookup;
+  /** Stops the escalation of the advisory (NotifyService.acknowledge). */
+  acknowledged(advisoryId: string, by: string): void;
+  /** The scrypt hash of the user's PIN (millwarden user pin), or null. */
+  pinHash(user: string): string | null;
+  deliveries(limit: number): DeliveryLogRow[];
+  /** null without a Web Push channel. */
+  vapidPublicKey(): string | null;
+  /** The roster person an account stands for: the person whose id is the account's name (without case), or null. */
+  personOf(user: string): string | null;
+  subscribe(personId: string, s: PushSubscriptionInput): void;
+  /** Removes the person's subscription with this endpoint; false when there was none. */
+  unsubscribe(personId: string, endpoint: string): boolean;
+}
+
 export interface AppDeps {
   getState(): PlantState;
   health(): HealthView;
@@ -95,6 +148,12 @@ export interface AppDeps {
   metrics?(): Promise<{ contentType: string; body: string }>;
   /** Accounts for the login, and the audit log every login, logout and command is written to. */
   accounts: AccountsPort;
+  /** Notifications: acknowledge links, the delivery log, Web Push sign-up (absent: those routes answer 404). */
+  notify?: NotifyPort;
+  /** GET /api/rules: the configured rules with every tier's limit (src/server/rules.ts; absent: 404). */
+  rules?(): RuleView[];
+  /** GET /api/handover: the last `hours` of data time (src/server/handover.ts; absent: 404). */
+  handover?(hours: number): Handover;
 }
 
 export class UnknownSeriesError extends Error {

@@ -30,6 +30,13 @@ export const API_ERRORS = {
   LOGIN_FAILED: { status: 401, doc: "The user name or the password was not accepted (the answer does not say which)." },
   LOGIN_LOCKED: { status: 429, doc: "Too many failed logins for this user or from this address: logins are refused until Retry-After seconds have passed." },
   LOGIN_BUSY: { status: 503, doc: "Too many logins are being checked at this moment; try again in a second (Retry-After)." },
+  ACK_LINK_INVALID: { status: 404, doc: "The acknowledge link is not one this box made (mistyped, cut short, or made with another key)." },
+  ACK_LINK_USED: { status: 409, doc: "The acknowledge link has been used already: each link works once (the answer says by whom and when)." },
+  ACK_LINK_EXPIRED: { status: 410, doc: "The acknowledge link is older than its lifetime; acknowledge on the dashboard instead." },
+  ACK_LINK_REFUSED: { status: 401, doc: "The user name, PIN or password given with an acknowledge link was not accepted (the answer does not say which)." },
+  ACK_LINK_LOCKED: { status: 429, doc: "Too many wrong PINs or passwords for this link or this user: refused until Retry-After seconds have passed." },
+  PUSH_NO_PERSON: { status: 409, doc: "The logged-in account is not a person of notifications.people (an account maps to the person whose id is its name, without case)." },
+  NOTIFICATIONS_OFF: { status: 404, doc: "The route needs notifications (or a Web Push channel) configured, and they are not." },
   UNKNOWN_SERIES: { status: 404, doc: "The trend series is neither a signal id nor a derived key." },
   INTERNAL: { status: 500, doc: "Unexpected failure inside the server; details are in the server log only." },
 } as const satisfies Record<string, { status: number; doc: string }>;

@@ -39,6 +39,15 @@ export function parseAdvisoryQuery(query: Record<string, QueryValue>): { limit: 
   return { limit: parseAdvisoryLimit(query["limit"]) };
 }
 
+/** GET /api/handover?hours=8|12 (default 8): the shift lengths the handover page offers. */
+export function parseHandoverQuery(query: Record<string, QueryValue>): { hours: 8 | 12 } {
+  rejectUnknown(query, ["hours"]);
+  const text = single("hours", query["hours"]);
+  if (text === undefined) return { hours: 8 };
+  if (text === "8" || text === "12") return { hours: Number(text) as 8 | 12 };
+  throw new ApiError("BAD_QUERY", `query parameter "hours": expected 8 or 12, found ${describeFound(text)}`);
+}
+
 export function parseAdvisoryLimit(raw: QueryValue): number {
   const text = single("limit", raw);
   if (text === undefined) return ADVISORY_LIMIT_DEFAULT;

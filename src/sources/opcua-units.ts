@@ -41,6 +41,8 @@ export const OPCUA_UNITS: Readonly<Record<string, UnitOnTheWire | null>> = {
   "t/h": { codes: ["E18"], symbols: ["t/h"] },
   // Normal cubic metres have no code of their own: cubic metre per hour.
   "Nm3/h": { codes: ["MQH"], symbols: ["Nm³/h", "Nm3/h", "m³/h", "m3/h"] },
+  // Actual cubic metres per hour: the same UNECE code (MQH); the symbol says which.
+  "Am3/h": { codes: ["MQH"], symbols: ["Am³/h", "Am3/h", "m³/h", "m3/h"] },
   kW: { codes: ["KWT"], symbols: ["kW"] },
   pct: { codes: ["P1"], symbols: ["%"] },
   mA: { codes: ["4K"], symbols: ["mA"] },

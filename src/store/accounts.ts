@@ -82,6 +82,9 @@ export class AccountStore {
     remove: Stmt;
     audit: Stmt;
     auditNewest: Stmt;
+    pin: Stmt;
+    setPin: Stmt;
+    removePin: Stmt;
   };
 
   constructor(db: Database.Database) {
@@ -93,6 +96,10 @@ export class AccountStore {
       remove: db.prepare("DELETE FROM users WHERE name = ?"),
       audit: db.prepare("INSERT INTO audit_log (at_ms, actor, action, target, detail, source) VALUES (?, ?, ?, ?, ?, ?)"),
       auditNewest: db.prepare("SELECT id, at_ms, actor, action, target, detail, source FROM audit_log ORDER BY id DESC LIMIT ?"),
+      // Migration 6: a short PIN per account, for acknowledge links only.
+      pin: db.prepare("SELECT pin_hash FROM user_pins WHERE name = ?").pluck(),
+      setPin: db.prepare("INSERT INTO user_pins (name, pin_hash, updated_at_ms) VALUES (?, ?, ?) ON CONFLICT (name) DO UPDATE SET pin_hash = excluded.pin_hash, updated_at_ms = excluded.updated_at_ms"),
+      removePin: db.prepare("DELETE FROM user_pins WHERE name = ?"),
     };
   }
 
@@ -149,7 +156,30 @@ export class AccountStore {
   removeUser(name: string): UserSummary {
     const { passwordHash: _hash, ...user } = this.requireUser(name);
     this.st.remove.run(user.name);
+    this.st.removePin.run(user.name);
     return user;
+  }
+
+  /**
+   * Sets the account's PIN for acknowledge links (a scrypt hash, like a password). It does not
+   * end the account's sessions: a PIN opens no session. Throws AccountError for an unknown user.
+   */
+  setPinHash(name: string, pinHash: string, atMs: number): void {
+    checkHash(pinHash);
+    const user = this.requireUser(name);
+    this.st.setPin.run(user.name, pinHash, Math.trunc(atMs));
+  }
+
+  /** Removes the account's PIN; false when it had none. */
+  clearPin(name: string): boolean {
+    const user = this.requireUser(name);
+    return this.st.removePin.run(user.name).changes > 0;
+  }
+
+  /** The hash of the account's PIN, or null (no such account, or no PIN set). */
+  findPinHash(name: string): string | null {
+    if (typeof name !== "string" || !USER_NAME_PATTERN.test(name)) return null;
+    return (this.st.pin.get(name) as string | undefined) ?? null;
   }
 
   /** Writes one audit entry at once. Returns null, or the database's error text. */

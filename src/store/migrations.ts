@@ -254,6 +254,52 @@ export const MIGRATIONS: readonly Migration[] = [
       );
     `,
   },
+  {
+    version: 6,
+    description: "acknowledge links used (single use) and a short PIN per user for acknowledging from a notification",
+    sql: `
+      -- One row per acknowledge link that was redeemed (src/notify/ack-link.ts): the link of an
+      -- outbox entry works once. The token itself is never stored, only which entry it was for.
+      CREATE TABLE notify_ack_links (
+        outbox_id   INTEGER PRIMARY KEY,
+        advisory_id TEXT NOT NULL,
+        channel     TEXT NOT NULL,
+        used_by     TEXT NOT NULL,
+        used_at_ms  INTEGER NOT NULL
+      );
+
+      -- A short PIN per account, hashed like a password (scrypt), accepted only together with
+      -- an acknowledge link (millwarden user pin NAME). AccountStore.removeUser removes it too.
+      CREATE TABLE user_pins (
+        name          TEXT PRIMARY KEY COLLATE NOCASE,
+        pin_hash      TEXT NOT NULL,
+        updated_at_ms INTEGER NOT NULL
+      ) WITHOUT ROWID;
+    `,
+  },
+  {
+    version: 7,
+    description: "republish store-and-forward queue (messages for the site broker while it is away)",
+    sql: `
+      -- Messages for the site's messaging broker that could not be published yet
+      -- (src/store/uplink-queue.ts), drained in id order. keep_last: advisory transitions,
+      -- dropped only when nothing else is left to drop. Bounded; the drops are counted.
+      CREATE TABLE uplink_queue (
+        id            INTEGER PRIMARY KEY,
+        topic         TEXT NOT NULL,
+        body          BLOB NOT NULL,
+        qos           INTEGER NOT NULL,
+        retain        INTEGER NOT NULL,
+        keep_last     INTEGER NOT NULL,
+        queued_at_ms  INTEGER NOT NULL
+      );
+      CREATE INDEX uplink_queue_keep ON uplink_queue (keep_last, id);
+      CREATE TABLE uplink_dropped (
+        keep_last INTEGER PRIMARY KEY,
+        count     INTEGER NOT NULL
+      );
+    `,
+  },
 ];
 
 /** Quality codes from this one up are not usable values for roll-ups, per kind of series. */

@@ -23,6 +23,8 @@ import type { Message, MessageFields, MessageKind, Recipient } from "../notify/m
 import { MIGRATIONS } from "./migrations.js";
 
 export const OUTBOX_SCHEMA_VERSION = 5;
+/** The acknowledge links used (notify_ack_links). */
+export const ACK_LINK_SCHEMA_VERSION = 6;
 
 export type OutboxState = "pending" | "sent" | "failed" | "dead";
 
@@ -64,6 +66,8 @@ export interface ChannelStats {
   lastSuccessMs: number | null;
   lastFailureMs: number | null;
   lastError: string | null;
+  /** The first failure after the last success (null while the last attempt succeeded). */
+  failingSinceMs: number | null;
   pending: number;
   failed: number;
   dead: number;
@@ -76,6 +80,24 @@ export interface PushSubscriptionRow {
   p256dh: string;
   auth: string;
   createdAtMs: number;
+}
+
+/** One delivery attempt as the dashboard lists it. */
+export interface DeliveryLogRow {
+  id: number;
+  outboxId: number;
+  channel: string;
+  atMs: number;
+  attempt: number;
+  outcome: "sent" | "retry" | "dead";
+  error: string | null;
+  durationMs: number;
+  recipient: string;
+  kind: MessageKind;
+  tier: string | null;
+  advisoryId: string | null;
+  /** The entry's state now (a retry may have been followed by a success). */
+  entryState: OutboxState;
 }
 
 export const dedupKeyOf = (eventKey: string, recipientKey: string, channel: string): string => `${eventKey}|${recipientKey}|${channel}`;
@@ -125,6 +147,7 @@ export class Outbox {
       log: db.prepare("INSERT INTO notify_deliveries (outbox_id, channel, at_ms, attempt, outcome, error, duration_ms) VALUES (?, ?, ?, ?, ?, ?, ?)"),
       counts: db.prepare("SELECT channel, state, count(*) AS n FROM notify_outbox GROUP BY channel, state"),
       lastOutcome: db.prepare("SELECT channel, outcome, max(at_ms) AS at_ms FROM notify_deliveries GROUP BY channel, outcome"),
+      failingSince: db.prepare("SELECT min(at_ms) FROM notify_deliveries WHERE channel = ? AND outcome != 'sent' AND at_ms > ?").pluck(),
       lastFailure: db.prepare("SELECT error FROM notify_deliveries WHERE channel = ? AND outcome != 'sent' ORDER BY at_ms DESC, id DESC LIMIT 1").pluck(),
       addSub: db.prepare(
         "INSERT INTO push_subscriptions (endpoint, person_id, p256dh, auth, created_at_ms) VALUES (?, ?, ?, ?, ?) " +
@@ -135,6 +158,12 @@ export class Outbox {
       sub: db.prepare("SELECT endpoint, person_id, p256dh, auth, created_at_ms FROM push_subscriptions WHERE endpoint = ?"),
       pruneLog: db.prepare("DELETE FROM notify_deliveries WHERE outbox_id IN (SELECT id FROM notify_outbox WHERE state IN ('sent', 'dead') AND created_at_ms < ?)"),
       prune: db.prepare("DELETE FROM notify_outbox WHERE state IN ('sent', 'dead') AND created_at_ms < ?"),
+      useLink: db.prepare("INSERT OR IGNORE INTO notify_ack_links (outbox_id, advisory_id, channel, used_by, used_at_ms) VALUES (?, ?, ?, ?, ?)"),
+      linkUse: db.prepare("SELECT used_by, used_at_ms FROM notify_ack_links WHERE outbox_id = ?"),
+      recentDeliveries: db.prepare(
+        "SELECT d.id, d.outbox_id, d.channel, d.at_ms, d.attempt, d.outcome, d.error, d.duration_ms, o.recipient, o.kind, o.tier, o.advisory_id, o.state " +
+          "FROM notify_deliveries d JOIN notify_outbox o ON o.id = d.outbox_id ORDER BY d.id DESC LIMIT ?",
+      ),
     };
   }
 
@@ -149,8 +178,7 @@ export class Outbox {
       // A "sent" mark lost to a power cut would send again: this connection syncs every commit (they are few).
       db.pragma("synchronous = FULL");
       if (path === ":memory:") {
-        const m = MIGRATIONS.find((x) => x.version === OUTBOX_SCHEMA_VERSION)!;
-        db.exec(m.sql);
+        for (const m of MIGRATIONS.filter((x) => x.version >= OUTBOX_SCHEMA_VERSION && x.version <= ACK_LINK_SCHEMA_VERSION)) db.exec(m.sql);
       } else {
         const mode = db.pragma("journal_mode", { simple: true });
         if (mode !== "wal") throw new Error(`expected the historian's file in WAL journal mode; found "${String(mode)}"`);
@@ -242,7 +270,7 @@ export class Outbox {
     const of = (channel: string) => {
       let s = by.get(channel);
       if (!s) {
-        s = { channel, lastSuccessMs: null, lastFailureMs: null, lastError: null, pending: 0, failed: 0, dead: 0, sent: 0 };
+        s = { channel, lastSuccessMs: null, lastFailureMs: null, lastError: null, failingSinceMs: null, pending: 0, failed: 0, dead: 0, sent: 0 };
         by.set(channel, s);
       }
       return s;
@@ -253,7 +281,11 @@ export class Outbox {
       if (r.outcome === "sent") s.lastSuccessMs = r.at_ms;
       else s.lastFailureMs = Math.max(s.lastFailureMs ?? Number.NEGATIVE_INFINITY, r.at_ms);
     }
-    for (const s of by.values()) if (s.lastFailureMs !== null) s.lastError = (this.st.lastFailure!.get(s.channel) as string | undefined) ?? null;
+    for (const s of by.values()) {
+      if (s.lastFailureMs === null) continue;
+      s.lastError = (this.st.lastFailure!.get(s.channel) as string | undefined) ?? null;
+      if (s.lastSuccessMs === null || s.lastFailureMs > s.lastSuccessMs) s.failingSinceMs = (this.st.failingSince!.get(s.channel, s.lastSuccessMs ?? Number.MIN_SAFE_INTEGER) as number | null | undefined) ?? null;
+    }
     return [...by.values()].sort((a, b) => a.channel.localeCompare(b.channel));
   }
 
@@ -292,6 +324,48 @@ export class Outbox {
       this.st.pruneLog!.run(Math.trunc(beforeMs));
       return this.st.prune!.run(Math.trunc(beforeMs)).changes;
     })();
+  }
+
+  // ---- acknowledge links (single use) ----
+
+  /**
+   * Marks the link of an outbox entry used. Returns null when this call marked it, or who used
+   * it before and when (the link works once; the check and the mark are one statement).
+   */
+  useAckLink(outboxId: number, advisoryId: string, channel: string, by: string, nowMs: number): { usedBy: string; usedAtMs: number } | null {
+    this.assertOpen();
+    if (this.st.useLink!.run(outboxId, advisoryId, channel, by, Math.trunc(nowMs)).changes > 0) return null;
+    return this.ackLinkUse(outboxId);
+  }
+
+  /** Who used the link of an outbox entry, or null while it is unused. */
+  ackLinkUse(outboxId: number): { usedBy: string; usedAtMs: number } | null {
+    this.assertOpen();
+    const r = this.st.linkUse!.get(outboxId) as { used_by: string; used_at_ms: number } | undefined;
+    return r ? { usedBy: r.used_by, usedAtMs: r.used_at_ms } : null;
+  }
+
+  /** The newest delivery attempts first, with what they were for (the dashboard's delivery log). */
+  recentDeliveries(limit: number): DeliveryLogRow[] {
+    this.assertOpen();
+    if (!Number.isSafeInteger(limit) || limit < 1) throw new RangeError(`Outbox.recentDeliveries: expected limit to be a whole number ≥ 1, found ${String(limit)}`);
+    type R = { id: number; outbox_id: number; channel: string; at_ms: number; attempt: number; outcome: string; error: string | null; duration_ms: number; recipient: string; kind: MessageKind; tier: string | null; advisory_id: string | null; state: OutboxState };
+    return (this.st.recentDeliveries!.all(limit) as R[]).map((r) => ({
+      id: r.id,
+      outboxId: r.outbox_id,
+      channel: r.channel,
+      atMs: r.at_ms,
+      attempt: r.attempt,
+      outcome: r.outcome as DeliveryLogRow["outcome"],
+      error: r.error,
+      durationMs: r.duration_ms,
+      // The recipient key names the person (and a browser's short hash), never an address.
+      recipient: r.recipient,
+      kind: r.kind,
+      tier: r.tier,
+      advisoryId: r.advisory_id,
+      entryState: r.state,
+    }));
   }
 
   // ---- Web Push subscriptions ----

@@ -103,7 +103,7 @@ describe("millwarden user (in process)", { timeout: 30_000 }, () => {
     [["add", "p.lindqvist", "hunter2-on-argv", "--role", "viewer", "--config", "CFG"], "", /expected one NAME, found 2 \(the password is never given on the command line\)/],
     [["passwd", "nobody", "--config", "CFG"], "long-enough-password", /user "nobody": no such account/],
     [["remove", "nobody", "--config", "CFG"], "", /no such account/],
-    [["rename", "x", "--config", "CFG"], "", /expected add, list, passwd or remove, found "rename"/],
+    [["rename", "x", "--config", "CFG"], "", /expected add, list, passwd, remove or pin, found "rename"/],
   ])("refuses %j with what it expected", async (args, input, why) => {
     const r = await run(args.map((a) => (a === "CFG" ? cfg : a)), input);
     expect(r.thrown).toBeInstanceOf(UserCommandError);
@@ -150,6 +150,32 @@ describe("millwarden user (in process)", { timeout: 30_000 }, () => {
     expect(await verifyPassword("typed-on-the-tty-1", withHistorian((h) => h.accounts().findUser("s.admin"))!.passwordHash)).toBe(true);
     const u = terminal(["first-entry-typed-A\r", "first-entry-typed-B\r"]);
     await expect(userCommand(["passwd", "s.admin", "--config", cfg], { stdin: u.stdin, stdout, stderr: u.stderr })).rejects.toThrow("the two passwords differ; nothing was changed");
+  });
+
+  it("sets a PIN for acknowledge links (digits only, hashed like a password), refuses a bad one, clears it; the PIN shows nowhere", async () => {
+    expect((await run(["add", "a.berg", "--role", "operator", "--config", cfg], "a-berg-password-Tarnholm\n")).code).toBe(0);
+    const set = await run(["pin", "A.Berg", "--config", cfg], "735190\n");
+    expect(set.out).toBe("set the PIN of a.berg (for acknowledge links in notifications)\n");
+    const pinHash = withHistorian((h) => h.accounts().findPinHash("a.berg"))!;
+    expect(pinHash).toMatch(/^scrypt\$/);
+    expect(await verifyPassword("735190", pinHash)).toBe(true);
+    // A PIN does not end the sessions: the account's version is unchanged.
+    expect(withHistorian((h) => h.accounts().findUser("a.berg"))!.version).toBe(1);
+    for (const bad of ["12345", "12345a", "1234567890123"]) {
+      const r = await run(["pin", "a.berg", "--config", cfg], `${bad}\n`);
+      expect(r.thrown?.message).toMatch(/^PIN: expected 6 to 12 digits, found \d+ characters/);
+    }
+    expect(await verifyPassword("735190", withHistorian((h) => h.accounts().findPinHash("a.berg"))!)).toBe(true);
+    expect((await run(["pin", "j.nobody", "--config", cfg], "735190\n")).thrown?.message).toMatch(/no such account/);
+    expect((await run(["pin", "a.berg", "--clear", "--config", cfg])).out).toBe("removed the PIN of a.berg\n");
+    expect(withHistorian((h) => h.accounts().findPinHash("a.berg"))).toBeNull();
+    const audit = withHistorian((h) => h.accounts().auditLog(10));
+    expect(audit.map((e) => e.action).slice(0, 2)).toEqual(["user.pin-clear", "user.pin"]);
+    expect(JSON.stringify(audit)).not.toContain("735190");
+    // Removing the account removes its PIN too.
+    await run(["pin", "a.berg", "--config", cfg], "246801\n");
+    await run(["remove", "a.berg", "--config", cfg]);
+    expect(withHistorian((h) => h.accounts().findPinHash("a.berg"))).toBeNull();
   });
 
   it("lists nothing yet with a hint", async () => {

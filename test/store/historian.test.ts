@@ -373,6 +373,7 @@ describe("Historian file", () => {
       "chunks_last",
       "chunks_series_last",
       "meta",
+      "notify_ack_links",
       "notify_deliveries",
       "notify_deliveries_channel",
       "notify_deliveries_outbox",
@@ -388,6 +389,10 @@ describe("Historian file", () => {
       "rollups_1m",
       "schema_migrations",
       "series",
+      "uplink_dropped",
+      "uplink_queue",
+      "uplink_queue_keep",
+      "user_pins",
       "users",
     ]);
     const sqlOf = (n: string): string => tables.find((t) => t.name === n)?.sql ?? "";

@@ -130,15 +130,15 @@ describe("the outbox", () => {
     expect(box.entries({ state: "dead" })).toHaveLength(2);
   });
 
-  it("channel figures: last success, last failure and its error, entries per state", () => {
+  it("channel figures: last success, last failure and its error, failing since when, entries per state", () => {
     box.commit([item(message("a")), item(message("b")), item(message("c", "mail", "anna"))], null, T0);
     const [a, b, c] = box.due(T0);
     box.record(a!.id, { ok: true }, T0 + 10, 1, POLICY, () => 0);
     box.record(b!.id, { ok: false, retry: true, error: "HTTP 502" }, T0 + 20, 1, POLICY, () => 0);
     box.record(c!.id, { ok: false, retry: false, error: "550 no such user" }, T0 + 30, 1, POLICY, () => 0);
     expect(box.channelStats()).toEqual([
-      { channel: "hook", lastSuccessMs: T0 + 10, lastFailureMs: T0 + 20, lastError: "HTTP 502", pending: 0, failed: 1, dead: 0, sent: 1 },
-      { channel: "mail", lastSuccessMs: null, lastFailureMs: T0 + 30, lastError: "550 no such user (not worth retrying)", pending: 0, failed: 0, dead: 1, sent: 0 },
+      { channel: "hook", lastSuccessMs: T0 + 10, lastFailureMs: T0 + 20, lastError: "HTTP 502", failingSinceMs: T0 + 20, pending: 0, failed: 1, dead: 0, sent: 1 },
+      { channel: "mail", lastSuccessMs: null, lastFailureMs: T0 + 30, lastError: "550 no such user (not worth retrying)", failingSinceMs: T0 + 30, pending: 0, failed: 0, dead: 1, sent: 0 },
     ]);
   });
 

@@ -36,7 +36,7 @@ export function pushPayload(d: Delivery): PushPayload {
   return {
     title: d.subject.slice(0, MAX_TITLE_CHARS),
     body: shortTextOf(f).slice(0, MAX_BODY_CHARS),
-    url: f.link,
+    url: f.ackLink ?? f.link,
     kind: f.kind,
     tier: f.tier,
     advisoryId: f.advisoryId,
