@@ -49,6 +49,7 @@ export function summarizeConfig(cfg: MillwardenConfig, file: string): string {
     const extras = [r.offDelayS ? `off-delay ${r.offDelayS} s` : "", r.reAlertS ? `re-alert ${r.reAlertS} s` : "", r.latching ? "latching" : "", r.phases ? `in ${r.phases.join(", ")}` : ""].filter(Boolean);
     lines.push(`rule ${r.id}: ${when}; on-delay ${r.onDelayS} s, deadband ${r.deadband}${extras.length ? `, ${extras.join(", ")}` : ""}; origin: ${r.origin}`);
   }
+  if (cfg.site.coal) lines.push(`coal ground: ${cfg.site.coal.type}${cfg.site.coal.origin ? ` (${cfg.site.coal.origin})` : ""}`);
   lines.push(`derived quantities: ${derivedQuantities(cfg).length}`);
   lines.push("Thresholds are advisory and must come from the site's own hazard study.");
   return lines.join("\n");

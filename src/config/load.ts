@@ -201,6 +201,21 @@ function crossCheck(cfg: MillwardenConfig, loc: Locator, out: ConfigProblem[]) {
       if (r.rate) out.push(loc.at(["rules", i, "rate"], `a rule with states: has no rate of change: leave out rate:`));
       return;
     }
+    if (r.tiersByCoal) {
+      // The thresholds of the coal ground now become the rule's tiers.
+      const coal = cfg.site.coal?.type;
+      const kinds = Object.keys(r.tiersByCoal);
+      if (r.tiers) out.push(loc.at(["rules", i, "tiersByCoal"], `give tiers: or tiersByCoal:, not both`));
+      else if (!coal) out.push(loc.at(["rules", i, "tiersByCoal"], `tiersByCoal needs the coal ground: expected site.coal.type, one of ${kinds.join(", ")}`));
+      else if (!r.tiersByCoal[coal]) out.push(loc.at(["rules", i, "tiersByCoal"], `no thresholds for the site's coal "${coal}": expected it among ${kinds.join(", ")}`));
+      else r.tiers = r.tiersByCoal[coal];
+      for (const [kind, t] of Object.entries(r.tiersByCoal)) {
+        const ordered = [t.notice, t.caution, t.warning].filter((x): x is number => x !== undefined);
+        const ok = ordered.every((v, k) => k === 0 || (r.direction === "high" ? v > ordered[k - 1]! : v < ordered[k - 1]!));
+        if (!ok) out.push(loc.at(["rules", i, "tiersByCoal", kind], `expected thresholds ${r.direction === "high" ? "rising" : "falling"} from notice to warning; found ${JSON.stringify(t)}`));
+      }
+      if (!r.tiers) return;
+    }
     if (!r.direction || !r.tiers) {
       out.push(loc.at(["rules", i], `expected direction: (high or low) and tiers: for a threshold rule, or states: and tier: for a state rule`));
       return;

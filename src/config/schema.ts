@@ -231,6 +231,8 @@ const rule = z.strictObject({
    * over windowS, known once the values cover half of it; none across an unknown value).
    */
   rate: z.strictObject({ windowS: positive }).optional(),
+  /** Thresholds per coal type (site.coal.type picks one), instead of tiers: e.g. a mill outlet temperature limit. */
+  tiersByCoal: z.record(id, tierThresholds).optional(),
   /** State rule: active while the state key holds one of these values, at this tier. */
   states: z.array(z.string().min(1)).min(1).optional(),
   tier: z.enum(["notice", "caution", "warning"]).optional(),
@@ -283,6 +285,8 @@ export const configSchema = z.strictObject({
     barometricPressureHPa: z.number().min(500).max(1100),
     /** Optional measured barometric pressure signal (takes precedence while trustworthy). */
     barometricSignal: id.optional(),
+    /** The coal ground now: rules with tiersByCoal take the thresholds set for it. */
+    coal: z.strictObject({ type: id, origin: text.optional() }).optional(),
   }),
   /** wall: ticks from the box's clock (live); data: ticks from the samples' own time (replay, accelerated simulation). */
   clock: z.enum(["wall", "data"]).default("wall"),

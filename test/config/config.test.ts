@@ -128,3 +128,18 @@ describe("config errors name file, line, key, expectation and finding", () => {
     expect(p[0]!.message).toMatch(/expected h2oSignal/);
   });
 });
+
+describe("thresholds per coal type", () => {
+  const R = "cause: c, consequence: c, check: c, origin: common practice";
+  const rule = `rules:\n  - { id: r1, title: T, quantity: a.temp, direction: high, tiersByCoal: { lignite: { caution: 70, warning: 75 }, hv-bituminous: { caution: 95, warning: 100 } }, ${R} }\n`;
+  it("the site's coal picks the rule's tiers", () => {
+    const text = minimal.replace("barometricPressureHPa: 1013", "barometricPressureHPa: 1013\n  coal: { type: lignite }") + rule;
+    expect(parseConfig(text, "plant.yaml").rules[0]!.tiers).toEqual({ caution: 70, warning: 75 });
+  });
+  it("without site.coal, or for a coal the rule has no row for, the config is refused with the line", () => {
+    const none = minimal + rule;
+    expect(problemsOf(none)[0]).toMatchObject({ key: "rules[0].tiersByCoal", message: expect.stringMatching(/expected site\.coal\.type, one of lignite, hv-bituminous/) });
+    const other = minimal.replace("barometricPressureHPa: 1013", "barometricPressureHPa: 1013\n  coal: { type: anthracite }") + rule;
+    expect(problemsOf(other)[0]).toMatchObject({ line: lineOf(other, "tiersByCoal"), message: expect.stringMatching(/no thresholds for the site's coal "anthracite"/) });
+  });
+});
