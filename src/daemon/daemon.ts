@@ -131,6 +131,7 @@ export class Daemon {
       advisories: () => this.engine.currentAdvisories(),
       positions: () => [...new Set(this.opts.config.rules.map((r) => r.position))].sort(),
       inFlood: (p) => this.engine.inFlood(p),
+      ...(this.notify ? { notifications: () => this.notify!.health() } : {}),
     });
     this.dataClock = cfg.clock === "data" ? new DataClock() : null;
   }

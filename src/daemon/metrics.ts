@@ -10,10 +10,12 @@
 //   millwarden_historian_degraded, _queue_depth, _rows_written_total, _rows_dropped_total, _failed_batches_total
 //   millwarden_advisories{tier,state}                              advisories on screen
 //   millwarden_advisory_flood{position}                            1 while an operator position is in flood
+//   millwarden_notifications_sent_total, _dead_total, _pending, millwarden_notification_channel_failing {channel,kind}
 import { Counter, Gauge, Registry } from "prom-client";
 import type { AdvisoryView } from "../core/types.js";
 import type { HistorianStats } from "../store/historian.js";
 import type { SourceStats } from "../sources/mqtt.js";
+import type { NotificationsHealth } from "../server/deps.js";
 
 export interface MetricsInputs {
   sources(): SourceStats[];
@@ -24,6 +26,8 @@ export interface MetricsInputs {
   advisories(): AdvisoryView[];
   positions(): string[];
   inFlood(position: string): boolean;
+  /** The notification channels, when the config has notifications. */
+  notifications?: () => NotificationsHealth;
 }
 
 /** A registry whose collectors read `inputs` at every scrape. */
@@ -137,5 +141,37 @@ export function daemonMetrics(inputs: MetricsInputs): Registry {
       for (const p of inputs.positions()) this.set({ position: p }, inputs.inFlood(p) ? 1 : 0);
     },
   });
+  const notes = inputs.notifications;
+  if (notes) {
+    const perChannel = (name: string, help: string, read: (c: NotificationsHealth["channels"][number]) => number, kind: "gauge" | "counter") => {
+      const opts = { name, help, labelNames: ["channel", "kind"], ...reg };
+      const fill = (m: { reset(): void; set?(l: object, v: number): void; inc?(l: object, v: number): void }) => {
+        m.reset();
+        for (const c of notes().channels) {
+          const labels = { channel: c.id, kind: c.kind };
+          if (m.set) m.set(labels, read(c));
+          else m.inc!(labels, read(c));
+        }
+      };
+      if (kind === "gauge")
+        new Gauge({
+          ...opts,
+          collect() {
+            fill(this as never);
+          },
+        });
+      else
+        new Counter({
+          ...opts,
+          collect() {
+            fill(this as never);
+          },
+        });
+    };
+    perChannel("millwarden_notifications_sent_total", "Notifications delivered, per channel.", (c) => c.sent ?? 0, "counter");
+    perChannel("millwarden_notifications_dead_total", "Notifications given up on after their retries, per channel.", (c) => c.dead, "counter");
+    perChannel("millwarden_notifications_pending", "Notifications waiting for a first or a further attempt, per channel.", (c) => c.pending, "gauge");
+    perChannel("millwarden_notification_channel_failing", "1 while the channel's last attempt failed or it cannot be used (or is silent past its daily test).", (c) => (c.state === "failing" || c.silent ? 1 : 0), "gauge");
+  }
   return registry;
 }

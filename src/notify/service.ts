@@ -457,6 +457,7 @@ export class NotifyService {
         lastError: failing ? (s?.lastError ?? (broken ? (ch as BrokenChannel).why : null)) : null,
         pending: (s?.pending ?? 0) + (s?.failed ?? 0),
         dead: s?.dead ?? 0,
+        sent: s?.sent ?? 0,
         // The daily test is the proof of life: without one, a quiet channel is just quiet.
         failingSinceMs: failing ? (s?.failingSinceMs ?? null) : null,
         silent: c.dailyTest !== undefined && nowMs - (lastSuccessMs ?? this.startedAtMs) > SILENT_AFTER_MS,

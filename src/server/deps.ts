@@ -43,6 +43,8 @@ export interface NotificationsHealth {
     pending: number;
     /** Entries given up on. */
     dead: number;
+    /** Entries delivered (since the outbox began). */
+    sent?: number;
     /**
      * A channel with a daily test whose last success (test or other message) is more than
      * SILENT_AFTER_MS ago, or that has had none that long since the start: nobody knows it works.

@@ -58,3 +58,27 @@ describe("metrics", () => {
     expect(l.filter((x) => x.startsWith("millwarden_core_lag_seconds "))).toEqual([]);
   });
 });
+
+describe("notification metrics", () => {
+  it("per channel: sent, dead, pending and failing (or silent)", async () => {
+    const ch = (id: string, over: object) => ({ id, kind: "email", state: "ok", lastSuccessMs: 1, lastFailureMs: null, lastError: null, pending: 0, dead: 0, sent: 0, ...over });
+    const l = await lines(
+      inputs({
+        notifications: () =>
+          ({
+            status: "failing",
+            channels: [ch("mail", { sent: 12, pending: 2, dead: 1, state: "failing" }), ch("hook", { kind: "webhook", sent: 5, silent: true })],
+            escalating: 0,
+            outboxError: null,
+            vapidPublicKey: null,
+          }) as never,
+      }),
+    );
+    expect(l).toContain('millwarden_notifications_sent_total{channel="mail",kind="email"} 12');
+    expect(l).toContain('millwarden_notifications_dead_total{channel="mail",kind="email"} 1');
+    expect(l).toContain('millwarden_notifications_pending{channel="mail",kind="email"} 2');
+    expect(l).toContain('millwarden_notification_channel_failing{channel="mail",kind="email"} 1');
+    expect(l).toContain('millwarden_notification_channel_failing{channel="hook",kind="webhook"} 1');
+    expect(l).toContain('millwarden_notifications_sent_total{channel="hook",kind="webhook"} 5');
+  });
+});
