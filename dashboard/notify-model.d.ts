@@ -1,7 +1,9 @@
-import type { NotificationsHealth } from "../src/server/deps.js";
+import type { HealthView, NotificationsHealth } from "../src/server/deps.js";
 import type { DeliveryLogRow } from "../src/store/outbox.js";
 
 export function notificationsLine(n: NotificationsHealth | undefined, clock: (ms: number) => string): string | null;
+
+export function boxHealthLine(h: HealthView | undefined): string | null;
 
 export interface DeliveryRowText {
   time: string;

@@ -25,6 +25,21 @@ export function notificationsLine(n, clock) {
 }
 
 /**
+ * The box's own trouble, for the line under the data panel, or null when all is well:
+ * "this box: historian degraded — <error>; source plant-mqtt not connected — <error>".
+ * (Notifications have their own line, notificationsLine.)
+ * @param {import("../src/server/deps.js").HealthView | undefined} h
+ * @returns {string | null}
+ */
+export function boxHealthLine(h) {
+  if (!h) return null;
+  const parts = [];
+  if (h.historian?.state === "degraded") parts.push(`historian degraded (computing and advisories go on, history is not being written)${h.historian.lastError ? ` \u2014 ${h.historian.lastError}` : ""}`);
+  for (const s of h.sources ?? []) if (!s.connected) parts.push(`source ${s.id} not connected${s.lastError ? ` \u2014 ${s.lastError}` : ""}`);
+  return parts.length ? `this box: ${parts.join("; ")}` : null;
+}
+
+/**
  * The delivery log's rows as texts, newest first.
  * @param {{ atMs: number, channel: string, recipient: string, kind: string, tier: string | null, advisoryId: string | null, attempt: number, outcome: string, error: string | null, durationMs: number, entryState: string }[]} rows
  * @param {(ms: number) => string} clock

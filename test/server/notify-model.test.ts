@@ -47,3 +47,16 @@ describe("deliveryRows", () => {
     expect(rows[1]).toMatchObject({ recipient: "jonas", what: "test", outcome: "sent", abnormal: false, error: "" });
   });
 });
+
+describe("boxHealthLine", () => {
+  it("says nothing when all is well, and names a degraded historian and each disconnected source", async () => {
+    const { boxHealthLine } = await import("../../dashboard/notify-model.js");
+    const ok = { status: "ok", sources: [{ id: "plant-mqtt", kind: "mqtt", connected: true, samples: 1, rejected: 0, lastError: null }], historian: { state: "ok", queueDepth: 0, rowsWritten: 1, lastError: null } };
+    expect(boxHealthLine(ok as never)).toBeNull();
+    expect(boxHealthLine(undefined)).toBeNull();
+    const bad = { ...ok, historian: { ...ok.historian, state: "degraded", lastError: "SQLITE_FULL: database or disk is full" }, sources: [{ ...ok.sources[0], connected: false, lastError: "connect ECONNREFUSED 127.0.0.1:1883" }] };
+    expect(boxHealthLine(bad as never)).toBe(
+      "this box: historian degraded (computing and advisories go on, history is not being written) \u2014 SQLITE_FULL: database or disk is full; source plant-mqtt not connected \u2014 connect ECONNREFUSED 127.0.0.1:1883",
+    );
+  });
+});
