@@ -185,4 +185,4 @@ async function render() {
   }
 }
 
-void initPage(render);
+void initPage({ title: "Advisories", current: "advisories.html" }, render);

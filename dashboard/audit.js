@@ -50,4 +50,4 @@ async function render(session) {
   }
 }
 
-void initPage(render);
+void initPage({ title: "Audit trail", current: "audit.html" }, render);

@@ -119,4 +119,4 @@ async function render() {
   }
 }
 
-void initPage(render);
+void initPage({ title: "Shift handover", current: "handover.html" }, render);

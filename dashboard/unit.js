@@ -220,4 +220,4 @@ async function render() {
   }
 }
 
-void initPage(render);
+void initPage({ title: "Unit detail", current: "unit.html" }, render);

@@ -87,7 +87,7 @@ const COMMAND_ERRORS = {
   409: "ADVISORY_CONFLICT",
 } as const satisfies Record<400 | 403 | 404 | 409, ApiErrorCode>;
 
-// The dashboard loads only its own files (scripts as modules, one stylesheet, a data: icon)
+// The dashboard loads only its own files (scripts as modules, its stylesheets, a data: icon)
 // and talks to its own origin ('self' covers ws: and wss: there, CSP Level 3 §6.7.2.5);
 // everything else, framing included, is refused.
 const CSP_DIRECTIVES: Record<string, string[]> = {

@@ -8,6 +8,12 @@ import { existsSync, mkdirSync, readFileSync } from "node:fs";
 import { join } from "node:path";
 import { chromium, type Browser, type Page } from "playwright-core";
 import { expect, it } from "vitest";
+import type { Daemon } from "../../src/daemon/daemon.js";
+import { startEmbeddedBroker, type EmbeddedBroker } from "../../src/daemon/embedded-broker.js";
+import { hashPassword } from "../../src/server/passwords.js";
+import { runSimulator } from "../../src/sim/publish.js";
+import type { AccountRole } from "../../src/store/accounts.js";
+import { demoConfigFor, startTestDaemon, tempDir, waitFor } from "../integration/helpers.js";
 
 export const CHROMIUM = "/usr/bin/chromium";
 export const HAVE_CHROMIUM = existsSync(CHROMIUM);
@@ -93,4 +99,57 @@ export async function axeViolations(page: Page): Promise<AxeViolation[]> {
       nodes: v.nodes.slice(0, 5).map((n) => ({ target: n.target, failureSummary: n.failureSummary })),
     }));
   });
+}
+
+/** The smoulder's start time in the tests that replay it whole (30 Nov 2026, 05:00 UTC). */
+export const SMOULDER_START_MS = Date.UTC(2026, 10, 30, 5, 0, 0);
+
+/**
+ * The demo daemon (data clock, config/demo.yaml) behind an embedded broker, with accounts made
+ * the way `millwarden user add` does (scrypt at a reduced cost, so the test does not spend
+ * seconds hashing), fed the whole filter-smoulder scenario as fast as it takes it, until the bag
+ * filter CO gradient advisory stands unacknowledged; then Chromium. `start` in beforeAll, `close`
+ * in afterAll: it stops what was started even when `start` did not finish.
+ */
+export class SmoulderedDemo {
+  private broker: EmbeddedBroker | undefined;
+  private started: Daemon | undefined;
+  private chromium: Browser | undefined;
+  private dir: ReturnType<typeof tempDir> | undefined;
+  private readonly name: string;
+
+  /** `name` keeps the folder and the topic prefix apart from the other test files'. */
+  constructor(name: string) {
+    this.name = name;
+  }
+
+  get daemon(): Daemon {
+    if (!this.started) throw new Error(`SmoulderedDemo ${this.name}: no daemon; expected start() to have finished in beforeAll`);
+    return this.started;
+  }
+
+  get browser(): Browser {
+    if (!this.chromium) throw new Error(`SmoulderedDemo ${this.name}: no browser; expected start() to have finished in beforeAll`);
+    return this.chromium;
+  }
+
+  async start(accounts: { user: string; role: AccountRole; password: string }[]): Promise<void> {
+    this.broker = await startEmbeddedBroker(0);
+    this.dir = tempDir(`mw-browser-${this.name}-`);
+    const prefix = `mw-browser-${this.name}/${process.pid}-${Math.random().toString(16).slice(2, 8)}`;
+    const { daemon } = await startTestDaemon(demoConfigFor(this.broker.url, prefix, this.dir.path));
+    this.started = daemon;
+    const store = daemon.historian.accounts();
+    for (const a of accounts) store.addUser(a.user, a.role, await hashPassword(a.password, { logN: 10, r: 8, p: 1 }), Date.now());
+    await runSimulator({ scenario: "filter-smoulder", mqttUrl: this.broker.url, topicPrefix: prefix, speed: 300, startTimeMs: SMOULDER_START_MS, seed: 11 });
+    await waitFor(() => daemon.engine.currentAdvisories().some((a) => a.id === "co-gradient-bf2" && (a.state === "unack" || a.state === "rtn-unack")), 20_000, "the bag filter CO gradient advisory, unacknowledged");
+    this.chromium = await launchChromium();
+  }
+
+  async close(): Promise<void> {
+    await this.chromium?.close();
+    await this.started?.stop();
+    await this.broker?.close();
+    this.dir?.remove();
+  }
 }

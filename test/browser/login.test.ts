@@ -6,42 +6,25 @@
 import type { Browser } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { AdvisoryTransition, AdvisoryView } from "../../src/core/types.js";
-import { startEmbeddedBroker, type EmbeddedBroker } from "../../src/daemon/embedded-broker.js";
 import type { Daemon } from "../../src/daemon/daemon.js";
-import { hashPassword } from "../../src/server/passwords.js";
-import { runSimulator } from "../../src/sim/publish.js";
-import { demoConfigFor, startTestDaemon, tempDir, waitFor } from "../integration/helpers.js";
-import { HAVE_CHROMIUM, WALL, axeViolations, launchChromium, openPage, screenshot } from "./browser.js";
+import { HAVE_CHROMIUM, SmoulderedDemo, WALL, axeViolations, openPage, screenshot } from "./browser.js";
 
-const START = Date.UTC(2026, 10, 30, 5, 0, 0);
 const USER = "t.operator";
-// Test-only password; scrypt with reduced cost so the test does not spend seconds hashing.
+// Test-only password (SmoulderedDemo hashes it with a reduced scrypt cost).
 const PASSWORD = "tarnholm-line2-nightshift";
 
 describe.skipIf(!HAVE_CHROMIUM)("browser: log in on the glance screen and acknowledge an advisory", () => {
-  let broker: EmbeddedBroker;
+  const demo = new SmoulderedDemo("login");
   let daemon: Daemon;
-  let dir: ReturnType<typeof tempDir>;
   let browser: Browser;
 
+  // The whole smoulder, as fast as the daemon takes it: its advisories stay on screen unacknowledged.
   beforeAll(async () => {
-    broker = await startEmbeddedBroker(0);
-    dir = tempDir("mw-browser-login-");
-    const prefix = `mw-browser-login/${process.pid}-${Math.random().toString(16).slice(2, 8)}`;
-    ({ daemon } = await startTestDaemon(demoConfigFor(broker.url, prefix, dir.path)));
-    daemon.historian.accounts().addUser(USER, "operator", await hashPassword(PASSWORD, { logN: 10, r: 8, p: 1 }), Date.now());
-    // The whole smoulder, as fast as the daemon takes it: its advisories stay on screen unacknowledged.
-    await runSimulator({ scenario: "filter-smoulder", mqttUrl: broker.url, topicPrefix: prefix, speed: 300, startTimeMs: START, seed: 11 });
-    await waitFor(() => daemon.engine.currentAdvisories().some((a) => a.id === "co-gradient-bf2" && (a.state === "unack" || a.state === "rtn-unack")), 20_000, "the bag filter CO gradient advisory, unacknowledged");
-    browser = await launchChromium();
+    await demo.start([{ user: USER, role: "operator", password: PASSWORD }]);
+    ({ daemon, browser } = demo);
   }, 90_000);
 
-  afterAll(async () => {
-    await browser?.close();
-    await daemon?.stop();
-    await broker?.close();
-    dir?.remove();
-  });
+  afterAll(() => demo.close());
 
   it("asks for a login at Acknowledge, logs in through the form, and the acknowledgement is recorded with the user", async () => {
     const { page, errors } = await openPage(browser, WALL, daemon.url!);

@@ -8,17 +8,13 @@ import { mkdirSync } from "node:fs";
 import { join } from "node:path";
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { startEmbeddedBroker, type EmbeddedBroker } from "../../src/daemon/embedded-broker.js";
 import type { Daemon } from "../../src/daemon/daemon.js";
-import { hashPassword } from "../../src/server/passwords.js";
-import { runSimulator } from "../../src/sim/publish.js";
-import { demoConfigFor, startTestDaemon, tempDir, waitFor } from "../integration/helpers.js";
-import { HAVE_CHROMIUM, PHONE, SCREENSHOT_DIR, WALL, axeViolations, launchChromium, openPage, screenshot } from "./browser.js";
+import { waitFor } from "../integration/helpers.js";
+import { HAVE_CHROMIUM, PHONE, SCREENSHOT_DIR, SmoulderedDemo, WALL, axeViolations, openPage, screenshot } from "./browser.js";
 
-const START = Date.UTC(2026, 10, 30, 5, 0, 0);
 const ENGINEER = "k.engineer";
 const OPERATOR = "t.operator";
-// Test-only passwords; scrypt with reduced cost.
+// Test-only password (SmoulderedDemo hashes it with a reduced scrypt cost).
 const PASSWORD = "tarnholm-line2-dayshift";
 
 async function rendered(page: Page): Promise<void> {
@@ -34,30 +30,19 @@ async function logIn(page: Page, user: string): Promise<void> {
 }
 
 describe.skipIf(!HAVE_CHROMIUM)("browser: unit detail, advisories, handover, audit trail", () => {
-  let broker: EmbeddedBroker;
+  const demo = new SmoulderedDemo("pages");
   let daemon: Daemon;
-  let dir: ReturnType<typeof tempDir>;
   let browser: Browser;
 
   beforeAll(async () => {
-    broker = await startEmbeddedBroker(0);
-    dir = tempDir("mw-browser-pages-");
-    const prefix = `mw-browser-pages/${process.pid}-${Math.random().toString(16).slice(2, 8)}`;
-    ({ daemon } = await startTestDaemon(demoConfigFor(broker.url, prefix, dir.path)));
-    const accounts = daemon.historian.accounts();
-    accounts.addUser(ENGINEER, "engineer", await hashPassword(PASSWORD, { logN: 10, r: 8, p: 1 }), Date.now());
-    accounts.addUser(OPERATOR, "operator", await hashPassword(PASSWORD, { logN: 10, r: 8, p: 1 }), Date.now());
-    await runSimulator({ scenario: "filter-smoulder", mqttUrl: broker.url, topicPrefix: prefix, speed: 300, startTimeMs: START, seed: 11 });
-    await waitFor(() => daemon.engine.currentAdvisories().some((a) => a.id === "co-gradient-bf2" && (a.state === "unack" || a.state === "rtn-unack")), 20_000, "the bag filter CO gradient advisory, unacknowledged");
-    browser = await launchChromium();
+    await demo.start([
+      { user: ENGINEER, role: "engineer", password: PASSWORD },
+      { user: OPERATOR, role: "operator", password: PASSWORD },
+    ]);
+    ({ daemon, browser } = demo);
   }, 90_000);
 
-  afterAll(async () => {
-    await browser?.close();
-    await daemon?.stop();
-    await broker?.close();
-    dir?.remove();
-  });
+  afterAll(() => demo.close());
 
   it("the glance screen links each unit to its detail page, which shows O2, limits, analysers, dew point and CO", async () => {
     const { page, errors } = await openPage(browser, WALL, daemon.url!);
