@@ -15,6 +15,7 @@ import { parseConfig } from "../src/config/load.js";
 import { Daemon } from "../src/daemon/daemon.js";
 import { memoryLogger } from "../src/daemon/log.js";
 import { wholeArg } from "./args.js";
+import { freePort } from "../test/sources/mosquitto.js";
 
 const N = wholeArg("messages", 400_000);
 const RUNS = wholeArg("runs", 3);
@@ -26,16 +27,6 @@ if (spawnSync("sh", ["-c", "command -v mosquitto"]).status !== 0) {
   process.exit(0);
 }
 
-async function freePort(): Promise<number> {
-  return new Promise((ok, fail) => {
-    const s = net.createServer();
-    s.once("error", fail);
-    s.listen(0, "127.0.0.1", () => {
-      const { port } = s.address() as net.AddressInfo;
-      s.close(() => ok(port));
-    });
-  });
-}
 
 const dir = mkdtempSync(join(tmpdir(), "mw-bench-ingest-"));
 const port = await freePort();

@@ -5,7 +5,7 @@
 import { z } from "zod";
 import { UNIT_NAMES } from "./units.js";
 
-import { id, positive, text } from "./sections/common.js";
+import { id, mqttTls, positive, text } from "./sections/common.js";
 import { dewPointSection } from "./sections/dew-point.js";
 import { coSection } from "./sections/co.js";
 import { oxygenSchema } from "./sections/oxygen.js";
@@ -42,20 +42,7 @@ const mqttSource = z
     passwordEnv: z.string().optional(),
     qos: z.union([z.literal(0), z.literal(1)]).default(0),
     /** TLS (mqtts:// or wss://): PEM files, read at start. */
-    tls: z
-      .strictObject({
-        /** CA certificate(s) the broker's certificate must chain to; the system's CAs when absent. */
-        ca: z.string().min(1).optional(),
-        /** Client certificate and its key, for a broker that asks for one. */
-        cert: z.string().min(1).optional(),
-        key: z.string().min(1).optional(),
-        /** false accepts any broker certificate: for a bench only, warned about in the log. */
-        rejectUnauthorized: z.boolean().default(true),
-        /** Name the broker's certificate must carry, when it differs from the URL's host. */
-        servername: z.string().min(1).optional(),
-      })
-      .refine((t) => (t.cert === undefined) === (t.key === undefined), { message: "cert and key go together (a client certificate and its private key)", path: ["key"] })
-      .optional(),
+    tls: mqttTls.optional(),
     /**
      * Topic filters to subscribe to instead of one subscription per signal topic; messages are
      * still routed to signals by their exact topic, and the unmatched ones are only counted.

@@ -6,8 +6,8 @@ import { afterEach, beforeEach, describe, expect, it } from "vitest";
 import type { PersistedAdvisory } from "../../src/advisories/advisory.js";
 import type { NuisanceEvent, StateChange } from "../../src/core/types.js";
 import { Historian } from "../../src/store/historian.js";
-import { APPLICATION_NAME, MIGRATIONS, SCHEMA_MIGRATIONS_SQL } from "../../src/store/migrations.js";
-import { T0, tempDir, transition } from "./helpers.js";
+import { MIGRATIONS } from "../../src/store/migrations.js";
+import { T0, tempDir, transition, writeVersion } from "./helpers.js";
 
 let dir: string;
 let cleanup: () => void;
@@ -89,25 +89,8 @@ describe("plant events", () => {
 describe("migration from version 2", () => {
   it("adds the tables of version 3 on, keeps samples and transitions, and takes a backup first", () => {
     const path = join(dir, "h.db");
-    // A version-2 file the way build 2 wrote it: migrations 1 and 2, their meta and schema rows.
-    const db = new Database(path);
-    db.pragma("journal_mode = WAL");
-    db.exec(SCHEMA_MIGRATIONS_SQL);
-    for (const m of MIGRATIONS.filter((x) => x.version <= 2)) {
-      db.exec(m.sql);
-      db.prepare("INSERT INTO schema_migrations (version, description, applied_at_ms) VALUES (?, ?, ?)").run(m.version, m.description, T0);
-    }
-    db.prepare("INSERT INTO meta (key, value) VALUES (?, ?)").run("application", APPLICATION_NAME);
-    db.prepare("INSERT INTO meta (key, value) VALUES (?, ?)").run("created_at_ms", String(T0));
-    db.pragma("user_version = 2");
-    db.prepare("INSERT INTO series (kind, name) VALUES ('signal', 'VM2-TT-111')").run();
-    const ins = db.prepare("INSERT INTO recent (series_id, t_ms, value, quality) VALUES (1, ?, ?, 0)");
-    for (let s = 0; s < 120; s++) ins.run(T0 + s * 1000, 80 + s / 100);
+    writeVersion(path, 2);
     const tr = transition({ atMs: T0 });
-    db.prepare(
-      "INSERT INTO advisory_transitions (at_ms, advisory_id, rule_id, transition, from_state, to_state, tier, value, limit_value, by_user, why) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-    ).run(tr.atMs, tr.advisoryId, tr.ruleId, tr.transition, tr.from, tr.to, tr.tier, tr.value, tr.limit, tr.by, tr.why);
-    db.close();
 
     const h2 = Historian.open({ path, nowMs: () => T0 + 3_600_000 });
     try {
@@ -115,9 +98,9 @@ describe("migration from version 2", () => {
       expect(h2.migrationBackup).toBe(`${path}.v2-backup-20250304T060000Z.db`);
       const copy = new Database(h2.migrationBackup!, { readonly: true });
       expect(copy.pragma("user_version", { simple: true })).toBe(2);
-      expect(copy.prepare("SELECT count(*) FROM recent").pluck().get()).toBe(120);
+      expect(copy.prepare("SELECT count(*) FROM recent").pluck().get()).toBe(60);
       copy.close();
-      expect(h2.samples("VM2-TT-111", T0, T0 + 200_000)).toHaveLength(120);
+      expect(h2.samples("VM2-TT-111", T0, T0 + 200_000)).toHaveLength(60);
       expect(h2.transitions()).toEqual([tr]);
       expect(h2.loadAdvisoryStates().states).toEqual([]);
       expect(h2.events()).toEqual([]);

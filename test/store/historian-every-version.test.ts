@@ -6,8 +6,8 @@ import { join } from "node:path";
 import Database from "better-sqlite3";
 import { afterEach, beforeEach, describe, expect, it } from "vitest";
 import { Historian } from "../../src/store/historian.js";
-import { APPLICATION_NAME, LATEST_SCHEMA_VERSION, MIGRATIONS, SCHEMA_MIGRATIONS_SQL } from "../../src/store/migrations.js";
-import { T0, tempDir, transition } from "./helpers.js";
+import { LATEST_SCHEMA_VERSION, MIGRATIONS } from "../../src/store/migrations.js";
+import { T0, tempDir, transition, writeVersion } from "./helpers.js";
 
 let dir: string;
 let cleanup: () => void;
@@ -16,27 +16,6 @@ beforeEach(() => {
 });
 afterEach(() => cleanup());
 
-function writeVersion(path: string, version: number): void {
-  const db = new Database(path);
-  db.pragma("journal_mode = WAL");
-  db.exec(SCHEMA_MIGRATIONS_SQL);
-  for (const m of MIGRATIONS.filter((x) => x.version <= version)) {
-    db.exec(m.sql);
-    m.run?.(db);
-    db.prepare("INSERT INTO schema_migrations (version, description, applied_at_ms) VALUES (?, ?, ?)").run(m.version, m.description, T0);
-  }
-  db.prepare("INSERT INTO meta (key, value) VALUES (?, ?)").run("application", APPLICATION_NAME);
-  db.prepare("INSERT INTO meta (key, value) VALUES (?, ?)").run("created_at_ms", String(T0));
-  db.pragma(`user_version = ${version}`);
-  db.prepare("INSERT INTO series (kind, name) VALUES ('signal', 'VM2-TT-111')").run();
-  const ins = db.prepare("INSERT INTO recent (series_id, t_ms, value, quality) VALUES (1, ?, ?, 0)");
-  for (let s = 0; s < 60; s++) ins.run(T0 + s * 1000, 85 + s / 100);
-  const tr = transition({ atMs: T0 });
-  db.prepare(
-    "INSERT INTO advisory_transitions (at_ms, advisory_id, rule_id, transition, from_state, to_state, tier, value, limit_value, by_user, why) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-  ).run(tr.atMs, tr.advisoryId, tr.ruleId, tr.transition, tr.from, tr.to, tr.tier, tr.value, tr.limit, tr.by, tr.why);
-  db.close();
-}
 
 describe("migration from every earlier version", () => {
   const versions = MIGRATIONS.map((m) => m.version).filter((v) => v >= 2 && v < LATEST_SCHEMA_VERSION);

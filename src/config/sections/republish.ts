@@ -3,6 +3,7 @@
 import { z } from "zod";
 import type { MillwardenConfig } from "../schema.js";
 import type { CheckContext } from "./context.js";
+import { mqttTls } from "./common.js";
 
 /** One topic level: no / + # and no NUL. */
 const level = z.string().regex(/^[^/+#]+$/, "expected one MQTT topic level, without / + or #").refine((l) => !l.includes("\u0000"), { message: "expected one MQTT topic level, without a NUL character" });
@@ -17,16 +18,7 @@ export const republishSchema = z
     username: z.string().optional(),
     /** Read from this environment variable, never written in the file. */
     passwordEnv: z.string().optional(),
-    tls: z
-      .strictObject({
-        ca: z.string().min(1).optional(),
-        cert: z.string().min(1).optional(),
-        key: z.string().min(1).optional(),
-        rejectUnauthorized: z.boolean().default(true),
-        servername: z.string().min(1).optional(),
-      })
-      .refine((t) => (t.cert === undefined) === (t.key === undefined), { message: "cert and key go together (a client certificate and its private key)", path: ["key"] })
-      .optional(),
+    tls: mqttTls.optional(),
     /** First levels of every topic we publish; may hold several levels (e.g. tarnholm/millwarden). */
     prefix: z
       .string()
