@@ -83,7 +83,18 @@ export function parseConfig(textContent: string, file: string): MillwardenConfig
   if (problems.length) throw new ConfigError(problems);
   const loc = new Locator(doc, lines, file);
 
-  const parsed = configSchema.safeParse(doc.toJS());
+  let js: unknown;
+  try {
+    js = doc.toJS();
+  } catch (err) {
+    // An alias whose anchor is missing parses, but cannot be turned into data.
+    const msg = err instanceof Error ? err.message : String(err);
+    const name = /alias[^:]*:\s*(\S+)/.exec(msg)?.[1];
+    const at = name === undefined ? -1 : textContent.indexOf(`*${name}`);
+    const pos = at >= 0 ? lines.linePos(at) : { line: 1, col: 1 };
+    throw new ConfigError([{ file, line: pos.line, column: pos.col, key: "", message: `YAML: ${msg.split("\n")[0]}` }]);
+  }
+  const parsed = configSchema.safeParse(js);
   if (!parsed.success) {
     for (const issue of parsed.error.issues) {
       const path = issue.path.filter((p): p is string | number => typeof p !== "symbol");

@@ -224,7 +224,10 @@ export class Engine {
     let stateText: string | null = null;
     if (r.states) {
       stateText = this.states.get(r.quantity) ?? null;
-      value = stateText === null ? null : r.states.includes(stateText) ? 1 : 0;
+      // A state that cannot be told ("unknown", e.g. for a tick of stale data) neither raises nor
+      // clears, unless the rule watches for "unknown" itself.
+      const unknown = stateText === null || (stateText === "unknown" && !r.states.includes("unknown"));
+      value = unknown ? null : r.states.includes(stateText!) ? 1 : 0;
     } else if (this.derived.has(r.quantity)) value = this.derived.get(r.quantity)!;
     else {
       const t = this.trust(r.quantity, nowMs);

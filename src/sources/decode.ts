@@ -38,7 +38,8 @@ function getPath(obj: unknown, path: string): unknown {
 }
 
 function parseTime(raw: unknown): number | null {
-  if (typeof raw === "number") return Number.isFinite(raw) ? raw : null;
+  // 8.64e15 ms either side of 1970 is all a JavaScript Date can hold (ECMA-262 §21.4.1.1).
+  if (typeof raw === "number") return Number.isFinite(raw) && Math.abs(raw) <= 8.64e15 ? raw : null;
   if (typeof raw === "string" && raw.length <= 40) {
     // RFC 3339 only: a date alone or a local time without offset is ambiguous on a plant network.
     if (!/^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}(\.\d+)?(Z|[+-]\d{2}:\d{2})$/.test(raw)) return null;
@@ -131,9 +132,12 @@ export function makeDecoder(signal: SignalConfig, source: SourceConfig): SignalD
       let q = quality === undefined ? "good" : parseQuality(quality) ?? "uncertain";
       const flagUnreadable = inCheck === null && q === "good";
       if (flagUnreadable) q = "uncertain";
+      // Scale, offset and the unit's conversion can overflow a finite reading (1e308 mbar in Pa).
+      const value = toCanonical(num * signal.scale + signal.offset);
+      if (!Number.isFinite(value)) return bad(receiveTimeMs, "not-a-number", `value ${num} at "${valuePath}" does not fit a number once scaled and converted from ${signal.unit}`);
       const sample: Sample = {
         signal: signal.id,
-        value: toCanonical(num * signal.scale + signal.offset),
+        value,
         quality: q,
         sourceTimeMs,
         receiveTimeMs,

@@ -476,7 +476,8 @@ export class SparkplugReader {
     let sourceTimeMs = receiveTimeMs;
     const rawTime = has(m, "timestamp") ? longToNumber(m.timestamp) : ctx.payloadTimeMs;
     if (rawTime !== null) {
-      if (!Number.isSafeInteger(rawTime) || rawTime <= 0) return refuse("bad-time", `timestamp ${rawTime}, expected milliseconds since 1970 (UTC)`);
+      // 8.64e15 ms is the last instant a JavaScript Date can hold (ECMA-262 §21.4.1.1).
+      if (!Number.isSafeInteger(rawTime) || rawTime <= 0 || rawTime > 8.64e15) return refuse("bad-time", `timestamp ${rawTime}, expected milliseconds since 1970 (UTC)`);
       if (rawTime - receiveTimeMs > this.skewMs) return refuse("time-in-future", `timestamp ${new Date(rawTime).toISOString()} is more than ${this.skewMs / 1000} s ahead of the box's clock`);
       sourceTimeMs = rawTime;
     }

@@ -154,3 +154,20 @@ describe("restart", () => {
     expect(r.events).toEqual([expect.objectContaining({ transition: "unshelve", advisoryId: "o2-high-grinding", why: expect.stringMatching(/could not be restored/) })]);
   });
 });
+
+describe("a state that cannot be told", () => {
+  it("neither clears nor raises a state rule: a tick of stale data leaves a latched advisory alone", () => {
+    const e = new Engine(cfg);
+    run(e, 0, 60, () => ({ driveKW: 500, o2: 8 }));
+    run(e, 61, 200, () => ({ driveKW: 0, o2: 8, trip: true })); // standstill-loaded: the latching notice
+    expect(e.currentAdvisories().find((a) => a.id === "loaded-standstill")).toMatchObject({ state: "unack", conditionActive: true });
+    // No samples for 10 s: every signal stale, the phase "unknown".
+    const gap: CoreEvent[] = [];
+    for (let k = 201; k <= 210; k++) gap.push(...e.tick(T0 + k * 1000));
+    expect(gap.filter((x): x is StateChange => x.kind === "state" && x.key === "phase.vm1").map((x) => x.value)).toContain("unknown");
+    expect(transitions(gap, "loaded-standstill")).toEqual([]);
+    // Data again, still stopped with coal inside: nothing rings again.
+    expect(transitions(run(e, 211, 260, () => ({ driveKW: 0, o2: 8, trip: true })), "loaded-standstill")).toEqual([]);
+  });
+});
+
