@@ -168,14 +168,14 @@ export class Advisory {
     // Holds that end by time or by the condition: shelve expiry first.
     if (this.shelf && nowMs >= this.shelf.untilMs) {
       const shelvedMs = nowMs - this.shelf.atMs;
-      this.shelf = null;
-      out.push(...this.leaveHold("unshelve", nowMs, SYSTEM_USER, `shelve expired after ${minutes(shelvedMs)}`));
+      out.push(...this.leaveHold(() => (this.shelf = null), "unshelve", nowMs, SYSTEM_USER, `shelve expired after ${minutes(shelvedMs)}`));
     }
     if (input.suppressedBy !== this.suppressedBy) {
       const was = this.suppressedBy;
-      this.suppressedBy = input.suppressedBy;
-      if (was === null) out.push(...this.enterHold("suppress", nowMs, SYSTEM_USER, `suppressed by design: ${input.suppressedBy}`));
-      else if (input.suppressedBy === null) out.push(...this.leaveHold("unsuppress", nowMs, SYSTEM_USER, `no longer suppressed (was: ${was})`));
+      const set = () => (this.suppressedBy = input.suppressedBy);
+      if (was === null) out.push(...this.enterHold(set, "suppress", nowMs, SYSTEM_USER, `suppressed by design: ${input.suppressedBy}`));
+      else if (input.suppressedBy === null) out.push(...this.leaveHold(set, "unsuppress", nowMs, SYSTEM_USER, `no longer suppressed (was: ${was})`));
+      else set();
     }
 
     if (input.value === null) {
@@ -229,22 +229,19 @@ export class Advisory {
         return this.shelve(cmd);
       case "unshelve": {
         if (!this.shelf) return { ok: false, status: 409, error: `advisory "${this.id}" is not shelved` };
-        this.shelf = null;
-        return { ok: true, events: this.leaveHold("unshelve", cmd.atMs, cmd.by, cmd.reason?.trim() || "unshelved") };
+        return { ok: true, events: this.leaveHold(() => (this.shelf = null), "unshelve", cmd.atMs, cmd.by, cmd.reason?.trim() || "unshelved") };
       }
       case "out-of-service": {
         if (cmd.role !== "engineer") return { ok: false, status: 403, error: `taking advisory "${this.id}" out of service needs the engineer role` };
         const reason = cmd.reason?.trim();
         if (!reason) return { ok: false, status: 400, error: `out of service needs a reason: expected a non-empty "reason"` };
         if (this.outOfService) return { ok: false, status: 409, error: `advisory "${this.id}" is already out of service (by ${this.outOfService.by})` };
-        this.outOfService = { by: cmd.by, reason, atMs: cmd.atMs };
-        return { ok: true, events: this.enterHold("out-of-service", cmd.atMs, cmd.by, reason) };
+        return { ok: true, events: this.enterHold(() => (this.outOfService = { by: cmd.by, reason, atMs: cmd.atMs }), "out-of-service", cmd.atMs, cmd.by, reason) };
       }
       case "return-to-service": {
         if (cmd.role !== "engineer") return { ok: false, status: 403, error: `returning advisory "${this.id}" to service needs the engineer role` };
         if (!this.outOfService) return { ok: false, status: 409, error: `advisory "${this.id}" is not out of service` };
-        this.outOfService = null;
-        return { ok: true, events: this.leaveHold("return-to-service", cmd.atMs, cmd.by, cmd.reason?.trim() || "returned to service") };
+        return { ok: true, events: this.leaveHold(() => (this.outOfService = null), "return-to-service", cmd.atMs, cmd.by, cmd.reason?.trim() || "returned to service") };
       }
     }
   }
@@ -287,14 +284,15 @@ export class Advisory {
     if (!this.policy.shelveWarnings && this.activeTier === "warning")
       return { ok: false, status: 409, error: `advisory "${this.id}" is at warning tier, which this site does not allow to be shelved (advisoryPolicy.shelveWarnings)` };
     const durationS = Math.min(cmd.durationS ?? maxS, maxS);
-    this.shelf = { by: cmd.by, reason, atMs: cmd.atMs, untilMs: cmd.atMs + durationS * 1000, oneShot };
+    const shelf = { by: cmd.by, reason, atMs: cmd.atMs, untilMs: cmd.atMs + durationS * 1000, oneShot };
     const how = oneShot ? `one-shot (until it clears, at most ${minutes(durationS * 1000)})` : `for ${minutes(durationS * 1000)}`;
-    return { ok: true, events: this.enterHold("shelve", cmd.atMs, cmd.by, `${reason} — shelved ${how}`) };
+    return { ok: true, events: this.enterHold(() => (this.shelf = shelf), "shelve", cmd.atMs, cmd.by, `${reason} — shelved ${how}`) };
   }
 
-  /** A held state begins: the lifecycle restarts when it ends. */
-  private enterHold(kind: TransitionKind, atMs: number, by: string, why: string): AdvisoryTransition[] {
-    const from = this.visibleBefore(kind);
+  /** A held state begins (`change` sets it): the lifecycle restarts when it ends. */
+  private enterHold(change: () => void, kind: TransitionKind, atMs: number, by: string, why: string): AdvisoryTransition[] {
+    const from = this.state;
+    change();
     this.alarmState = "normal";
     this.ackedBy = null;
     this.ackedAtMs = null;
@@ -303,25 +301,15 @@ export class Advisory {
     return [this.transition(kind, from, atMs, by, why)];
   }
 
-  /** A held state ends: unack if the condition is present, else normal (or the next held state). */
-  private leaveHold(kind: TransitionKind, atMs: number, by: string, why: string): AdvisoryTransition[] {
-    const from = this.visibleBefore(kind);
+  /** A held state ends (`change` clears it): unack if the condition is present, else normal (or the next held state). */
+  private leaveHold(change: () => void, kind: TransitionKind, atMs: number, by: string, why: string): AdvisoryTransition[] {
+    const from = this.state;
+    change();
     this.alarmState = this.activeTier !== null ? "unack" : "normal";
     if (this.activeTier !== null) this.raisedAtMs = atMs;
     this.lastChangeMs = atMs;
     if (from === this.state) return [];
     return [this.transition(kind, from, atMs, by, why)];
-  }
-
-  /** The state shown before the hold change just made (the change itself is already applied). */
-  private visibleBefore(kind: TransitionKind): AdvisoryState {
-    const oos = kind === "out-of-service" ? null : kind === "return-to-service" ? { by: "" } : this.outOfService;
-    const shelf = kind === "shelve" ? null : kind === "unshelve" ? { by: "" } : this.shelf;
-    const sup = kind === "suppress" ? null : kind === "unsuppress" ? "x" : this.suppressedBy;
-    if (oos) return "out-of-service";
-    if (shelf) return "shelved";
-    if (sup) return "suppressed";
-    return this.alarmState;
   }
 
   private rise(tier: Tier, nowMs: number): AdvisoryTransition[] {
@@ -355,8 +343,7 @@ export class Advisory {
     const why = `${this.quantityLabel} returned to normal (${now})`;
     if (this.shelf?.oneShot) {
       // A one-shot shelve ends with the condition it was set for.
-      this.shelf = null;
-      return this.leaveHold("unshelve", nowMs, SYSTEM_USER, `${why}; one-shot shelve ended`);
+      return this.leaveHold(() => (this.shelf = null), "unshelve", nowMs, SYSTEM_USER, `${why}; one-shot shelve ended`);
     }
     if (this.held) return [];
     const from = this.alarmState;
@@ -475,8 +462,7 @@ export class Advisory {
     this.outOfService = p.outOfService;
     this.shelf = p.shelf;
     if (this.shelf && nowMs >= this.shelf.untilMs) {
-      this.shelf = null;
-      return this.leaveHold("unshelve", nowMs, SYSTEM_USER, "shelve expired while millwarden was stopped");
+      return this.leaveHold(() => (this.shelf = null), "unshelve", nowMs, SYSTEM_USER, "shelve expired while millwarden was stopped");
     }
     return [];
   }
